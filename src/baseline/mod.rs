@@ -1,0 +1,1 @@
+//! Baselines (recording, loading, drift comparison) and the content-hash cache.

@@ -1,0 +1,73 @@
+//! Figures of merit from a view (DESIGN §6): inductor `l, r, q, q_tank, srf, q_peak,
+//! f_q_peak, f_q_half, l_low`; capacitor `c, esr, q, srf, c_low`; transformer `l1, l2,
+//! m, k, q1, q2, il_min` and winding srfs; kind inference; the data checks of every file.
+//!
+//! Knows nothing of files, rules or reports.
+
+use std::collections::BTreeMap;
+
+use crate::model::LossStory;
+use crate::network::ViewName;
+
+/// What a part is, as declared by a rule group or inferred from the data.
+#[derive(
+    Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize, serde::Deserialize,
+)]
+#[serde(rename_all = "snake_case")]
+pub enum Kind {
+    /// A spiral or other coil.
+    Inductor,
+    /// A MIM/MOM or other capacitor.
+    Capacitor,
+    /// A 4-port transformer or balun.
+    Transformer,
+}
+
+impl Kind {
+    /// Name as written in rules and documents.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Kind::Inductor => "inductor",
+            Kind::Capacitor => "capacitor",
+            Kind::Transformer => "transformer",
+        }
+    }
+}
+
+/// All figures of one view of one file.
+///
+/// Scalars and curves are kept by name so that the rules language, the JSON
+/// documents and the reports can treat every figure alike. `None` marks a value that
+/// is undefined (never NaN): e.g. `srf` when the sweep ends below resonance.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ViewFigures {
+    /// Which view.
+    pub view: ViewName,
+    /// Kind the figures were computed for.
+    pub kind: Kind,
+    /// Sweep frequencies (Hz), the grid of every curve.
+    pub freq: Vec<f64>,
+    /// Scalar figures by name (`srf`, `q_peak`, `l_low`, …), SI units.
+    pub scalars: BTreeMap<String, Option<f64>>,
+    /// Curves on the sweep grid by name (`l`, `q`, `q_tank`, …), SI units.
+    pub curves: BTreeMap<String, Vec<Option<f64>>>,
+    /// Equivalent-circuit fit and loss attribution (inductor views), or why not.
+    pub loss: Option<Result<LossStory, String>>,
+}
+
+/// Data checks of every file (DESIGN §6).
+#[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize)]
+pub struct DataChecks {
+    /// 1 − max over f of σ_max(S); ≥ 0 for passive data.
+    pub passivity_margin: Option<f64>,
+    /// max over f of max |S_ij − S_ji|.
+    pub reciprocity_error: Option<f64>,
+    /// number of frequency points
+    pub points: usize,
+    /// lowest frequency (Hz)
+    pub f_min: f64,
+    /// highest frequency (Hz)
+    pub f_max: f64,
+    /// number of ports
+    pub ports: usize,
+}

@@ -1,0 +1,146 @@
+//! Network math: the in-memory N-port ([`Network`], S-parameters with per-port real
+//! reference impedances), S↔Z↔Y conversions by linear solves, and the views of
+//! DESIGN §5 that reduce N ports to what a part's user drives.
+//!
+//! Knows nothing of files or rules.
+
+use num_complex::Complex64;
+
+/// Complex number type used throughout.
+pub type C64 = Complex64;
+
+/// An N-port network sampled on a frequency grid: S-parameters referred to real,
+/// positive per-port reference impedances.
+///
+/// `s` is frequency-major and row-major within a frequency: entry (i, j) of point k
+/// is `s[k * n * n + i * n + j]` (0-based ports).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Network {
+    /// Frequencies in Hz, strictly increasing.
+    pub freq: Vec<f64>,
+    /// Number of ports N.
+    pub ports: usize,
+    /// Reference impedance of each port in Ω (length N, each > 0).
+    pub z0: Vec<f64>,
+    /// S-parameters, `freq.len() * N * N` values.
+    pub s: Vec<C64>,
+}
+
+impl Network {
+    /// Number of frequency points.
+    pub fn points(&self) -> usize {
+        self.freq.len()
+    }
+    /// S(i, j) at point k (0-based).
+    pub fn s_at(&self, k: usize, i: usize, j: usize) -> C64 {
+        let n = self.ports;
+        self.s[k * n * n + i * n + j]
+    }
+    /// The N×N S block of point k.
+    pub fn s_block(&self, k: usize) -> &[C64] {
+        let n = self.ports;
+        &self.s[k * n * n..(k + 1) * n * n]
+    }
+}
+
+/// The ways a part's ports can be driven (DESIGN §5).
+#[derive(
+    Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize, serde::Deserialize,
+)]
+#[serde(rename_all = "snake_case")]
+pub enum ViewName {
+    /// 1-port: Z_in from S11.
+    OnePort,
+    /// Port 1 driven, port 2 (and others) grounded: Y_in = Y11.
+    SingleEnded,
+    /// Floating drive between ports 1 and 2: Z_in = Z11 − Z12 − Z21 + Z22.
+    Differential,
+    /// 3-port with the tap grounded, then differential.
+    CentreTapped,
+    /// 4-port: two windings, each driven differentially; a 2×2 winding Z.
+    Transformer,
+}
+
+impl ViewName {
+    /// All views, in the order reports list them.
+    pub const ALL: [ViewName; 5] = [
+        ViewName::OnePort,
+        ViewName::SingleEnded,
+        ViewName::Differential,
+        ViewName::CentreTapped,
+        ViewName::Transformer,
+    ];
+    /// The name used on the command line, in rules and in documents.
+    pub fn as_str(self) -> &'static str {
+        match self {
+            ViewName::OnePort => "one_port",
+            ViewName::SingleEnded => "single_ended",
+            ViewName::Differential => "differential",
+            ViewName::CentreTapped => "centre_tapped",
+            ViewName::Transformer => "transformer",
+        }
+    }
+    /// Parse a view name as written on the command line or in rules.
+    pub fn parse(s: &str) -> Option<ViewName> {
+        ViewName::ALL.into_iter().find(|v| v.as_str() == s)
+    }
+}
+
+impl std::fmt::Display for ViewName {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// Port assignment for the views (1-based port numbers, as users write them).
+#[derive(Debug, Clone, PartialEq, Eq, serde::Serialize, serde::Deserialize)]
+pub struct PortMap {
+    /// Driven ports of a one-winding view (`single_ended`: [driven, grounded]).
+    pub pair: [usize; 2],
+    /// The centre tap of a 3-port (grounded in `centre_tapped`).
+    pub tap: usize,
+    /// The two windings of a 4-port transformer.
+    pub windings: [[usize; 2]; 2],
+}
+
+impl Default for PortMap {
+    fn default() -> Self {
+        PortMap {
+            pair: [1, 2],
+            tap: 3,
+            windings: [[1, 2], [3, 4]],
+        }
+    }
+}
+
+/// A view: the part reduced to what its user drives, on the network's grid.
+#[derive(Debug, Clone, PartialEq)]
+pub enum View {
+    /// A one-port seen at the drive: Y_in per point. `two_port` carries the 2×2 Y
+    /// (row-major [Y11, Y12, Y21, Y22]) the view was reduced from, when there is one,
+    /// so that the π-model fit can use its series and shunt branches.
+    Driving {
+        /// which view
+        name: ViewName,
+        /// input admittance per point (S)
+        y_in: Vec<C64>,
+        /// 2×2 Y the drive was taken from (None for 1-port data)
+        two_port: Option<Vec<[C64; 4]>>,
+    },
+    /// Two windings: 2×2 Z per point (row-major [Z11, Z12, Z21, Z22]).
+    Windings {
+        /// which view
+        name: ViewName,
+        /// winding impedance matrix per point (Ω)
+        z: Vec<[C64; 4]>,
+    },
+}
+
+impl View {
+    /// Which view this is.
+    pub fn name(&self) -> ViewName {
+        match self {
+            View::Driving { name, .. } | View::Windings { name, .. } => *name,
+        }
+    }
+}
