@@ -7,6 +7,9 @@
 use num_complex::Complex64;
 
 pub mod convert;
+mod views;
+
+pub use views::{differential_y, view, views_for, ViewError};
 
 /// Complex number type used throughout.
 pub type C64 = Complex64;
