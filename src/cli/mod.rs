@@ -3,6 +3,8 @@
 
 use std::process::ExitCode;
 
+pub mod inspect;
+
 /// Exit status: every part passed every error-level check, no drift.
 pub const EXIT_PASS: u8 = 0;
 /// Exit status: a failure, undecided check, unreadable or missing part, or drift.

@@ -6,8 +6,15 @@
 
 use std::collections::BTreeMap;
 
-use crate::model::LossStory;
+use crate::model::{LossStory, Mechanism};
 use crate::network::ViewName;
+
+mod catalogue;
+mod compute;
+pub mod grid;
+
+pub use catalogue::{info, FigureInfo, CATALOGUE, DATA_CHECK_NAMES, MODEL_PARAM_NAMES};
+pub use compute::{data_checks, il_min_db, infer_kind, rollett_k, sigma_max, view_figures};
 
 /// What a part is, as declared by a rule group or inferred from the data.
 #[derive(
@@ -53,6 +60,52 @@ pub struct ViewFigures {
     pub curves: BTreeMap<String, Vec<Option<f64>>>,
     /// Equivalent-circuit fit and loss attribution (inductor views), or why not.
     pub loss: Option<Result<LossStory, String>>,
+}
+
+impl ViewFigures {
+    /// A scalar figure by name; None when unknown or undefined.
+    pub fn scalar(&self, name: &str) -> Option<f64> {
+        self.scalars.get(name).copied().flatten()
+    }
+
+    /// A curve by name at frequency `f` (Hz), linearly interpolated between sweep
+    /// points (see [`grid`]); None outside the sweep, for an unknown curve or where
+    /// the curve is undefined.
+    pub fn curve_at(&self, name: &str, f: f64) -> Option<f64> {
+        let c = self.curves.get(name)?;
+        grid::interp(&self.freq, c, f)
+    }
+
+    /// The curve over the band [lo, hi]: every sweep point inside it plus the
+    /// interpolated values at lo and hi (None there when outside the sweep), sorted
+    /// by frequency without repeats. Empty for an unknown curve or lo > hi.
+    pub fn curve_points(&self, name: &str, lo: f64, hi: f64) -> Vec<(f64, Option<f64>)> {
+        let Some(c) = self.curves.get(name) else {
+            return Vec::new();
+        };
+        if lo.is_nan() || hi.is_nan() || lo > hi {
+            return Vec::new();
+        }
+        let mut out = vec![(lo, grid::interp(&self.freq, c, lo))];
+        for (i, &f) in self.freq.iter().enumerate() {
+            if f > lo && f < hi {
+                out.push((f, c.get(i).copied().flatten()));
+            }
+        }
+        if hi > lo {
+            out.push((hi, grid::interp(&self.freq, c, hi)));
+        }
+        out
+    }
+
+    /// What limits Q at `f`: [`crate::model::mechanism_of`] of the interpolated
+    /// `substrate_factor` and `resonance_factor` curves; None where they are not
+    /// defined (no fit, or outside the sweep).
+    pub fn mechanism_at(&self, f: f64) -> Option<Mechanism> {
+        let sf = self.curve_at("substrate_factor", f)?;
+        let rf = self.curve_at("resonance_factor", f)?;
+        Some(crate::model::mechanism_of(sf, rf))
+    }
 }
 
 /// Data checks of every file (DESIGN §6).

@@ -5,6 +5,10 @@
 //!
 //! Knows nothing of files or rules.
 
+pub mod circuit;
+
+pub use circuit::shunt_y;
+
 /// What limits Q at a frequency (DESIGN §6.1).
 #[derive(
     Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize, serde::Deserialize,
@@ -79,6 +83,21 @@ pub struct LossStory {
     pub q_drop_cause: Option<Mechanism>,
     /// the sweep split into runs of one mechanism
     pub loss_bands: Vec<LossBand>,
+}
+
+/// The mechanism that limits Q (DESIGN §6.1): `resonance` if resonance_factor ≤ 0;
+/// else `conductor` if substrate_factor·resonance_factor ≥ 0.9; else whichever
+/// factor is smaller (`substrate` or `resonance`).
+pub fn mechanism_of(substrate_factor: f64, resonance_factor: f64) -> Mechanism {
+    if resonance_factor <= 0.0 {
+        Mechanism::Resonance
+    } else if substrate_factor * resonance_factor >= 0.9 {
+        Mechanism::Conductor
+    } else if substrate_factor < resonance_factor {
+        Mechanism::Substrate
+    } else {
+        Mechanism::Resonance
+    }
 }
 
 use crate::figures::ViewFigures;

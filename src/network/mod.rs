@@ -6,6 +6,11 @@
 
 use num_complex::Complex64;
 
+pub mod convert;
+mod views;
+
+pub use views::{differential_y, view, views_for, ViewError};
+
 /// Complex number type used throughout.
 pub type C64 = Complex64;
 
@@ -40,6 +45,40 @@ impl Network {
     pub fn s_block(&self, k: usize) -> &[C64] {
         let n = self.ports;
         &self.s[k * n * n..(k + 1) * n * n]
+    }
+    /// The N×N Z block (Ω) of point k, None where Z does not exist.
+    pub fn z_block(&self, k: usize) -> Option<Vec<C64>> {
+        convert::s_to_z(self.s_block(k), self.ports, &self.z0)
+    }
+    /// The N×N Y block (S) of point k, None where Y does not exist.
+    pub fn y_block(&self, k: usize) -> Option<Vec<C64>> {
+        convert::s_to_y(self.s_block(k), self.ports, &self.z0)
+    }
+    /// Build a network from Y blocks (`y_flat`: frequency-major, row-major N×N per
+    /// point, S). None when the sizes disagree or a block has no S.
+    pub fn from_y(freq: Vec<f64>, ports: usize, z0: Vec<f64>, y_flat: &[C64]) -> Option<Network> {
+        Self::from_blocks(freq, ports, z0, y_flat, convert::y_to_s)
+    }
+    /// Build a network from Z blocks (Ω), as [`Network::from_y`].
+    pub fn from_z(freq: Vec<f64>, ports: usize, z0: Vec<f64>, z_flat: &[C64]) -> Option<Network> {
+        Self::from_blocks(freq, ports, z0, z_flat, convert::z_to_s)
+    }
+    fn from_blocks(
+        freq: Vec<f64>,
+        ports: usize,
+        z0: Vec<f64>,
+        flat: &[C64],
+        conv: convert::BlockFn,
+    ) -> Option<Network> {
+        let nn = ports * ports;
+        if ports == 0 || z0.len() != ports || flat.len() != freq.len() * nn {
+            return None;
+        }
+        let mut s = Vec::with_capacity(flat.len());
+        for block in flat.chunks_exact(nn) {
+            s.extend(conv(block, ports, &z0)?);
+        }
+        Some(Network { freq, ports, z0, s })
     }
 }
 

@@ -1,0 +1,240 @@
+//! Numerics on a frequency grid: interpolation, derivatives on non-uniform grids,
+//! zero crossings and the parabola refinement of a peak.
+//!
+//! Interpolation between sweep points is linear in f. It is exact on the sweep
+//! points, never overshoots (a value between two samples lies between them, so a
+//! band check cannot invent a better or worse value than the data shows), and needs
+//! no assumption about the curve's shape; EM sweeps are dense enough for its O(h²)
+//! error to stay below the solver's own noise.
+
+/// `Some(x)` when x is finite.
+pub fn fin(x: f64) -> Option<f64> {
+    x.is_finite().then_some(x)
+}
+
+/// Index i such that f[i] ≤ x ≤ f[i+1] (f strictly increasing); None outside.
+pub fn bracket(f: &[f64], x: f64) -> Option<usize> {
+    if f.is_empty() || !x.is_finite() || x < f[0] || x > f[f.len() - 1] {
+        return None;
+    }
+    if f.len() == 1 {
+        return Some(0);
+    }
+    // partition_point: first index with f > x
+    let p = f.partition_point(|&v| v <= x);
+    Some(p.saturating_sub(1).min(f.len() - 2))
+}
+
+/// Linear interpolation of `y` (on grid `f`) at x; exact at sweep points; None
+/// outside the sweep or where a needed sample is undefined.
+pub fn interp(f: &[f64], y: &[Option<f64>], x: f64) -> Option<f64> {
+    let i = bracket(f, x)?;
+    if f.len() == 1 {
+        return if x == f[0] { y[0] } else { None };
+    }
+    let (f0, f1) = (f[i], f[i + 1]);
+    if x == f0 {
+        return y[i];
+    }
+    if x == f1 {
+        return y[i + 1];
+    }
+    let (y0, y1) = (y[i]?, y[i + 1]?);
+    fin(y0 + (y1 - y0) * (x - f0) / (f1 - f0))
+}
+
+/// Derivative dy/dx at every grid point, second-order accurate on a non-uniform
+/// grid: the derivative of the parabola through three neighbouring samples (central
+/// at interior points, one-sided at the ends). Two points: the secant. None where
+/// a needed sample is missing or the grid has fewer than two points.
+pub fn derivative(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
+    stencil_derivative(x, y, |i, n| i.clamp(1, n - 2))
+}
+
+/// The same derivative from the neighbouring stencil (the parabola through the
+/// samples centred one point further up, or down at the top end). Its difference
+/// from [`derivative`] estimates the truncation error (both are O(h²·y‴)). None
+/// for grids of fewer than four points.
+pub fn derivative_alt(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
+    if x.len() < 4 {
+        return vec![None; x.len()];
+    }
+    stencil_derivative(x, y, |i, n| {
+        let j = i.clamp(1, n - 2);
+        if j < n - 2 {
+            j + 1
+        } else {
+            j - 1
+        }
+    })
+}
+
+fn stencil_derivative(
+    x: &[f64],
+    y: &[Option<f64>],
+    centre: impl Fn(usize, usize) -> usize,
+) -> Vec<Option<f64>> {
+    let n = x.len();
+    let mut out = vec![None; n];
+    if n < 2 {
+        return out;
+    }
+    if n == 2 {
+        let d = match (y[0], y[1]) {
+            (Some(a), Some(b)) => fin((b - a) / (x[1] - x[0])),
+            _ => None,
+        };
+        return vec![d, d];
+    }
+    for (i, o) in out.iter_mut().enumerate() {
+        // the three samples used, and the point at which the parabola is differentiated
+        let j = centre(i, n);
+        let (xa, xb, xc) = (x[j - 1], x[j], x[j + 1]);
+        let (Some(ya), Some(yb), Some(yc)) = (y[j - 1], y[j], y[j + 1]) else {
+            continue;
+        };
+        let t = x[i];
+        // derivative of the Lagrange parabola at t
+        let da = (2.0 * t - xb - xc) / ((xa - xb) * (xa - xc));
+        let db = (2.0 * t - xa - xc) / ((xb - xa) * (xb - xc));
+        let dc = (2.0 * t - xa - xb) / ((xc - xa) * (xc - xb));
+        *o = fin(ya * da + yb * db + yc * dc);
+    }
+    out
+}
+
+/// The lowest frequency where `y` crosses from negative to non-negative, located
+/// between the bracketing samples by linear interpolation of `w(f)·y` against `f²`
+/// (`w` a positive weight, ω for susceptance): for B = ωC − 1/(ωL), ω·B is linear
+/// in ω², so the crossing of an ideal L‖C is exact on any grid.
+pub fn rising_zero(f: &[f64], y: &[Option<f64>]) -> Option<f64> {
+    for i in 0..f.len().saturating_sub(1) {
+        let (Some(y0), Some(y1)) = (y[i], y[i + 1]) else {
+            continue;
+        };
+        if y0 < 0.0 && y1 >= 0.0 {
+            if y1 == 0.0 {
+                return Some(f[i + 1]);
+            }
+            let (p0, p1) = (f[i] * y0, f[i + 1] * y1);
+            let (u0, u1) = (f[i] * f[i], f[i + 1] * f[i + 1]);
+            let u = u0 + (u1 - u0) * (-p0) / (p1 - p0);
+            let x = fin(u.sqrt())?;
+            return Some(x.clamp(f[i], f[i + 1]));
+        }
+    }
+    None
+}
+
+/// The maximum of a sampled curve, refined by the parabola through the largest
+/// sample and its two neighbours (when they exist, are defined and the parabola
+/// opens downward with its vertex between them). Only indices < `end` are searched.
+/// Returns (f at peak, peak value).
+pub fn peak(f: &[f64], y: &[Option<f64>], end: usize) -> Option<(f64, f64)> {
+    let end = end.min(f.len());
+    let (i, yi) = (0..end).filter_map(|i| y[i].map(|v| (i, v))).fold(
+        None,
+        |best: Option<(usize, f64)>, (i, v)| match best {
+            Some((_, b)) if b >= v => best,
+            _ => Some((i, v)),
+        },
+    )?;
+    if i == 0 || i + 1 >= end {
+        return Some((f[i], yi));
+    }
+    let (Some(ya), Some(yc)) = (y[i - 1], y[i + 1]) else {
+        return Some((f[i], yi));
+    };
+    let (xa, xb, xc) = (f[i - 1], f[i], f[i + 1]);
+    // Newton form: y = ya + d1 (x − xa) + d2 (x − xa)(x − xb)
+    let d1 = (yi - ya) / (xb - xa);
+    let d2 = ((yc - yi) / (xc - xb) - d1) / (xc - xa);
+    if d2 >= 0.0 {
+        return Some((xb, yi));
+    }
+    // dy/dx = d1 + d2 (2x − xa − xb) = 0
+    let xv = (xa + xb) / 2.0 - d1 / (2.0 * d2);
+    if !(xv > xa && xv < xc) {
+        return Some((xb, yi));
+    }
+    let yv = ya + d1 * (xv - xa) + d2 * (xv - xa) * (xv - xb);
+    match (fin(xv), fin(yv)) {
+        (Some(x), Some(v)) if v >= yi => Some((x, v)),
+        _ => Some((xb, yi)),
+    }
+}
+
+/// First f after index `from` where `y` has fallen to `level` or below, linearly
+/// interpolated between the samples around the fall.
+pub fn first_fall(f: &[f64], y: &[Option<f64>], from: usize, level: f64) -> Option<f64> {
+    for j in from + 1..f.len() {
+        let y1 = y[j]?;
+        if y1 <= level {
+            let y0 = y[j - 1]?;
+            if y0 <= level {
+                return Some(f[j - 1]);
+            }
+            return fin(f[j - 1] + (f[j] - f[j - 1]) * (y0 - level) / (y0 - y1));
+        }
+    }
+    None
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn derivative_exact_for_parabola() {
+        // The three-point formula is exact for quadratics on any grid
+        // (Lagrange interpolation; common practice, no source).
+        let x = [0.0, 0.3, 1.0, 1.2, 2.5];
+        let y: Vec<_> = x
+            .iter()
+            .map(|&t| Some(3.0 * t * t - 2.0 * t + 1.0))
+            .collect();
+        let d = derivative(&x, &y);
+        for (t, di) in x.iter().zip(d) {
+            assert!((di.unwrap() - (6.0 * t - 2.0)).abs() < 1e-12);
+        }
+    }
+
+    #[test]
+    fn interpolation_and_bracket() {
+        let f = [1.0, 2.0, 4.0];
+        let y = [Some(1.0), Some(3.0), None];
+        assert_eq!(interp(&f, &y, 1.5), Some(2.0));
+        assert_eq!(interp(&f, &y, 2.0), Some(3.0));
+        assert_eq!(interp(&f, &y, 3.0), None);
+        assert_eq!(interp(&f, &y, 0.5), None);
+        assert_eq!(bracket(&f, 4.0), Some(1));
+    }
+
+    #[test]
+    fn peak_refined() {
+        let f = [1.0, 2.0, 3.0, 4.0];
+        let y: Vec<_> = f
+            .iter()
+            .map(|&t: &f64| Some(5.0 - (t - 2.4).powi(2)))
+            .collect();
+        let (fp, yp) = peak(&f, &y, 4).unwrap();
+        assert!((fp - 2.4).abs() < 1e-12 && (yp - 5.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn rising_zero_of_lc() {
+        // B = ωC − 1/(ωL) has its zero at 1/(2π√(LC)) (Pozar §6.1); exact on a coarse grid.
+        let (l, c) = (2e-9, 100e-15);
+        let f: Vec<f64> = (1..=30).map(|k| k as f64 * 1e9).collect();
+        let b: Vec<_> = f
+            .iter()
+            .map(|&x| {
+                let w = 2.0 * std::f64::consts::PI * x;
+                Some(w * c - 1.0 / (w * l))
+            })
+            .collect();
+        let f0 = 1.0 / (2.0 * std::f64::consts::PI * (l * c).sqrt());
+        let z = rising_zero(&f, &b).unwrap();
+        assert!((z - f0).abs() / f0 < 1e-12, "{z} vs {f0}");
+    }
+}

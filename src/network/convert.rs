@@ -1,0 +1,343 @@
+//! S ↔ Z ↔ Y conversion of one N×N block (row-major) with real, positive per-port
+//! reference impedances.
+//!
+//! With every reference real, power waves (Kurokawa, IEEE T-MTT 13(2), 1965),
+//! pseudo-waves (Marks–Williams, J. Res. NIST 97(5), 1992) and travelling waves
+//! coincide, so one set of formulas serves. Write D = diag(√z0_k) and the normalized
+//! matrices Zn = D⁻¹ Z D⁻¹, Yn = D Y D. Then (Pozar, *Microwave Engineering*, §4.3,
+//! generalised to per-port references):
+//!
+//! ```text
+//! S  = (Zn + I)⁻¹ (Zn − I)      Zn = (I − S)⁻¹ (I + S)
+//! S  = (I + Yn)⁻¹ (I − Yn)      Yn = (I + S)⁻¹ (I − S)
+//! ```
+//!
+//! (the factors commute, so the order is free). Everything is done by LU solves,
+//! never by explicit inverses; 1- and 2-ports take the closed forms of Pozar's
+//! Table 4.2 (generalised to per-port references the same way). A block whose
+//! solve matrix is singular (relative pivot below [`SINGULAR_TOL`]) gives `None`:
+//! e.g. Z of a pure series element, whose I − S is singular.
+
+use nalgebra::DMatrix;
+
+use super::C64;
+
+/// A solve matrix is treated as singular when its smallest LU pivot (or, for the
+/// closed forms, its determinant) is below this fraction of its scale. The matrices
+/// solved (I ± S, Zn + I, I + Yn) are dimensionless and of order one for passive
+/// data, so a fixed relative tolerance is meaningful.
+pub const SINGULAR_TOL: f64 = 1e-13;
+
+/// Signature shared by the four block conversions.
+pub type BlockFn = fn(&[C64], usize, &[f64]) -> Option<Vec<C64>>;
+
+fn one() -> C64 {
+    C64::new(1.0, 0.0)
+}
+
+fn all_finite(v: &[C64]) -> bool {
+    v.iter().all(|c| c.re.is_finite() && c.im.is_finite())
+}
+
+/// Solve A X = B for N×N row-major A, B. None when A is (numerically) singular.
+fn solve(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
+    let am = DMatrix::from_row_slice(n, n, a);
+    let bm = DMatrix::from_row_slice(n, n, b);
+    let scale = am.iter().map(|c| c.norm()).fold(0.0, f64::max);
+    if !(scale.is_finite()) || scale == 0.0 {
+        return None;
+    }
+    let lu = am.lu();
+    let u = lu.u();
+    let min_pivot = (0..n)
+        .map(|i| u[(i, i)].norm())
+        .fold(f64::INFINITY, f64::min);
+    if min_pivot <= SINGULAR_TOL * scale {
+        return None;
+    }
+    let x = lu.solve(&bm)?;
+    // back to row-major
+    let mut out = Vec::with_capacity(n * n);
+    for i in 0..n {
+        for j in 0..n {
+            out.push(x[(i, j)]);
+        }
+    }
+    all_finite(&out).then_some(out)
+}
+
+/// Solve A X = B for 2×2 row-major by Cramer's rule.
+fn solve2(a: &[C64], b: &[C64]) -> Option<Vec<C64>> {
+    let det = a[0] * a[3] - a[1] * a[2];
+    let scale = a.iter().map(|c| c.norm()).fold(0.0, f64::max);
+    if !(scale.is_finite()) || scale == 0.0 || det.norm() <= SINGULAR_TOL * scale * scale {
+        return None;
+    }
+    let inv = [a[3] / det, -a[1] / det, -a[2] / det, a[0] / det];
+    let out = vec![
+        inv[0] * b[0] + inv[1] * b[2],
+        inv[0] * b[1] + inv[1] * b[3],
+        inv[2] * b[0] + inv[3] * b[2],
+        inv[2] * b[1] + inv[3] * b[3],
+    ];
+    all_finite(&out).then_some(out)
+}
+
+fn check(m: &[C64], n: usize, z0: &[f64]) -> bool {
+    n > 0
+        && m.len() == n * n
+        && z0.len() == n
+        && z0.iter().all(|z| z.is_finite() && *z > 0.0)
+        && all_finite(m)
+}
+
+/// I + sign·M
+fn eye_plus(m: &[C64], n: usize, sign: f64) -> Vec<C64> {
+    let mut out: Vec<C64> = m.iter().map(|c| c * sign).collect();
+    for i in 0..n {
+        out[i * n + i] += one();
+    }
+    out
+}
+
+/// Scale entry (i, j) by d_i · d_j where d = √z0 (`pow` = 1) or 1/√z0 (`pow` = −1).
+fn scale_dd(m: &mut [C64], n: usize, z0: &[f64], pow: f64) {
+    for i in 0..n {
+        for j in 0..n {
+            m[i * n + j] *= (z0[i] * z0[j]).sqrt().powf(pow);
+        }
+    }
+}
+
+/// The general path: Xn = (I + sa·S)⁻¹ (I + sb·S), used by S→Z (sa=−1, sb=+1) and
+/// S→Y (sa=+1, sb=−1).
+fn from_s_general(s: &[C64], n: usize, sa: f64, sb: f64) -> Option<Vec<C64>> {
+    solve(&eye_plus(s, n, sa), &eye_plus(s, n, sb), n)
+}
+
+/// S = (P + I)⁻¹ (P − I) for P = Zn (sign +1) or S = (I + P)⁻¹ (I − P) for P = Yn
+/// (sign −1): both are (I + P)⁻¹ · sign·(P − I).
+fn to_s_general(p: &[C64], n: usize, sign: f64) -> Option<Vec<C64>> {
+    let a = eye_plus(p, n, 1.0);
+    let mut b: Vec<C64> = p.iter().map(|c| c * sign).collect();
+    for i in 0..n {
+        b[i * n + i] -= one() * sign;
+    }
+    solve(&a, &b, n)
+}
+
+/// Closed 2-port form of Xn = (I + sa·S)⁻¹ (I + sb·S) with sa = −sb (Pozar Table 4.2:
+/// Z11 = [(1+S11)(1−S22) + S12S21]/Δ, Z12 = 2S12/Δ, Δ = (1−S11)(1−S22) − S12S21, and
+/// the Y column likewise with Δ' = (1+S11)(1+S22) − S12S21).
+fn from_s_2(s: &[C64], sb: f64) -> Option<Vec<C64>> {
+    let (s11, s12, s21, s22) = (s[0], s[1], s[2], s[3]);
+    let a = [one() - s11 * sb, -s12 * sb, -s21 * sb, one() - s22 * sb];
+    let det = a[0] * a[3] - a[1] * a[2];
+    let scale = a.iter().map(|c| c.norm()).fold(0.0, f64::max);
+    if scale == 0.0 || det.norm() <= SINGULAR_TOL * scale * scale {
+        return None;
+    }
+    let p = s12 * s21;
+    let out = vec![
+        ((one() + s11 * sb) * (one() - s22 * sb) + p) / det,
+        s12 * (2.0 * sb) / det,
+        s21 * (2.0 * sb) / det,
+        ((one() - s11 * sb) * (one() + s22 * sb) + p) / det,
+    ];
+    all_finite(&out).then_some(out)
+}
+
+/// Closed 2-port form of S from P = Zn (sign +1) or P = Yn (sign −1):
+/// Δ = (1+p11)(1+p22) − p12p21, S11 = sign·[(p11−1)(p22+1) − p12p21]/Δ,
+/// S12 = 2·sign·p12/Δ, S22 = sign·[(p11+1)(p22−1) − p12p21]/Δ.
+fn to_s_2(p: &[C64], sign: f64) -> Option<Vec<C64>> {
+    let (p11, p12, p21, p22) = (p[0], p[1], p[2], p[3]);
+    let a = [one() + p11, p12, p21, one() + p22];
+    let det = a[0] * a[3] - a[1] * a[2];
+    let scale = a.iter().map(|c| c.norm()).fold(0.0, f64::max);
+    if !(scale.is_finite()) || scale == 0.0 || det.norm() <= SINGULAR_TOL * scale * scale {
+        return None;
+    }
+    let q = p12 * p21;
+    let out = vec![
+        ((p11 - one()) * (p22 + one()) - q) * sign / det,
+        p12 * (2.0 * sign) / det,
+        p21 * (2.0 * sign) / det,
+        ((p11 + one()) * (p22 - one()) - q) * sign / det,
+    ];
+    all_finite(&out).then_some(out)
+}
+
+fn from_s(s: &[C64], n: usize, z0: &[f64], to_z: bool, general: bool) -> Option<Vec<C64>> {
+    if !check(s, n, z0) {
+        return None;
+    }
+    let (sa, sb) = if to_z { (-1.0, 1.0) } else { (1.0, -1.0) };
+    let mut out = match (n, general) {
+        (1, false) => {
+            let den = one() + s[0] * sa;
+            if den.norm() <= SINGULAR_TOL {
+                return None;
+            }
+            vec![(one() + s[0] * sb) / den]
+        }
+        (2, false) => from_s_2(s, sb)?,
+        _ => from_s_general(s, n, sa, sb)?,
+    };
+    // Z = D Zn D;  Y = D⁻¹ Yn D⁻¹
+    scale_dd(&mut out, n, z0, if to_z { 1.0 } else { -1.0 });
+    all_finite(&out).then_some(out)
+}
+
+fn to_s(m: &[C64], n: usize, z0: &[f64], from_z: bool, general: bool) -> Option<Vec<C64>> {
+    if !check(m, n, z0) {
+        return None;
+    }
+    // Zn = D⁻¹ Z D⁻¹;  Yn = D Y D
+    let mut p = m.to_vec();
+    scale_dd(&mut p, n, z0, if from_z { -1.0 } else { 1.0 });
+    let sign = if from_z { 1.0 } else { -1.0 };
+    let out = match (n, general) {
+        (1, false) => {
+            let den = one() + p[0];
+            if den.norm() <= SINGULAR_TOL * p[0].norm().max(1.0) {
+                return None;
+            }
+            vec![(p[0] - one()) * sign / den]
+        }
+        (2, false) => to_s_2(&p, sign)?,
+        _ => to_s_general(&p, n, sign)?,
+    };
+    all_finite(&out).then_some(out)
+}
+
+/// Z (Ω) from S: Z = D (I − S)⁻¹ (I + S) D, D = diag(√z0) (Pozar §4.3). None when
+/// I − S is singular (Z does not exist, e.g. a pure series element) or input is bad.
+pub fn s_to_z(s: &[C64], n: usize, z0: &[f64]) -> Option<Vec<C64>> {
+    from_s(s, n, z0, true, false)
+}
+
+/// Y (S) from S: Y = D⁻¹ (I + S)⁻¹ (I − S) D⁻¹ (Pozar §4.3). None when I + S is
+/// singular (Y does not exist, e.g. a pure shunt element at one port pair).
+pub fn s_to_y(s: &[C64], n: usize, z0: &[f64]) -> Option<Vec<C64>> {
+    from_s(s, n, z0, false, false)
+}
+
+/// S from Z (Ω): S = (Zn + I)⁻¹ (Zn − I), Zn = D⁻¹ Z D⁻¹ (Pozar §4.3).
+pub fn z_to_s(z: &[C64], n: usize, z0: &[f64]) -> Option<Vec<C64>> {
+    to_s(z, n, z0, true, false)
+}
+
+/// S from Y (S): S = (I + Yn)⁻¹ (I − Yn), Yn = D Y D (Pozar §4.3).
+pub fn y_to_s(y: &[C64], n: usize, z0: &[f64]) -> Option<Vec<C64>> {
+    to_s(y, n, z0, false, false)
+}
+
+/// The same conversions forced through the general LU path (no closed forms); used
+/// by tests that compare the fast paths against it.
+pub mod general {
+    use super::*;
+
+    /// [`super::s_to_z`] through the LU solver for every N.
+    pub fn s_to_z(s: &[C64], n: usize, z0: &[f64]) -> Option<Vec<C64>> {
+        from_s(s, n, z0, true, true)
+    }
+    /// [`super::s_to_y`] through the LU solver for every N.
+    pub fn s_to_y(s: &[C64], n: usize, z0: &[f64]) -> Option<Vec<C64>> {
+        from_s(s, n, z0, false, true)
+    }
+    /// [`super::z_to_s`] through the LU solver for every N.
+    pub fn z_to_s(z: &[C64], n: usize, z0: &[f64]) -> Option<Vec<C64>> {
+        to_s(z, n, z0, true, true)
+    }
+    /// [`super::y_to_s`] through the LU solver for every N.
+    pub fn y_to_s(y: &[C64], n: usize, z0: &[f64]) -> Option<Vec<C64>> {
+        to_s(y, n, z0, false, true)
+    }
+}
+
+/// Solve A X = B for an N×N row-major A (LU for N > 2, Cramer for N ≤ 2); None when
+/// A is singular. Shared with the views.
+pub fn solve_block(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
+    match n {
+        1 => {
+            if a[0].norm() == 0.0 {
+                None
+            } else {
+                let x = b[0] / a[0];
+                x.is_finite().then(|| vec![x])
+            }
+        }
+        2 => solve2(a, b),
+        _ => solve(a, b, n),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn close(a: &[C64], b: &[C64], tol: f64) -> bool {
+        a.len() == b.len()
+            && a.iter()
+                .zip(b)
+                .all(|(x, y)| (x - y).norm() <= tol * (1.0 + y.norm()))
+    }
+
+    fn c(re: f64, im: f64) -> C64 {
+        C64::new(re, im)
+    }
+
+    #[test]
+    fn one_port_resistor() {
+        // Γ = (R − Z0)/(R + Z0): 100 Ω on 50 Ω gives 1/3 (Pozar eq. 2.35).
+        let s = z_to_s(&[c(100.0, 0.0)], 1, &[50.0]).unwrap();
+        assert!((s[0] - c(1.0 / 3.0, 0.0)).norm() < 1e-15);
+        let z = s_to_z(&s, 1, &[50.0]).unwrap();
+        assert!((z[0] - c(100.0, 0.0)).norm() < 1e-12);
+        let y = s_to_y(&s, 1, &[50.0]).unwrap();
+        assert!((y[0] - c(0.01, 0.0)).norm() < 1e-15);
+        // open circuit: Z does not exist
+        assert!(s_to_z(&[c(1.0, 0.0)], 1, &[50.0]).is_none());
+        assert!(s_to_y(&[c(-1.0, 0.0)], 1, &[50.0]).is_none());
+    }
+
+    #[test]
+    fn series_element_has_no_z() {
+        // A series impedance Zs between the ports: S11 = Zs/(Zs + 2Z0), S21 = 2Z0/(Zs + 2Z0)
+        // (Pozar Table 4.1 / worked S of a series element).
+        let zs = c(10.0, 30.0);
+        let d = zs + 100.0;
+        let s = [zs / d, c(100.0, 0.0) / d, c(100.0, 0.0) / d, zs / d];
+        assert!(s_to_z(&s, 2, &[50.0, 50.0]).is_none());
+        assert!(general::s_to_z(&s, 2, &[50.0, 50.0]).is_none());
+        let y = s_to_y(&s, 2, &[50.0, 50.0]).unwrap();
+        let ys = one() / zs;
+        assert!(close(&y, &[ys, -ys, -ys, ys], 1e-12));
+        let yg = general::s_to_y(&s, 2, &[50.0, 50.0]).unwrap();
+        assert!(close(&y, &yg, 1e-12));
+    }
+
+    #[test]
+    fn per_port_reference() {
+        // A 2-port with different references: round trip Z→S→Z and against general.
+        let z = [c(30.0, 5.0), c(10.0, 1.0), c(10.0, 1.0), c(80.0, -20.0)];
+        let z0 = [25.0, 75.0];
+        let s = z_to_s(&z, 2, &z0).unwrap();
+        let sg = general::z_to_s(&z, 2, &z0).unwrap();
+        assert!(close(&s, &sg, 1e-13));
+        assert!(close(&s_to_z(&s, 2, &z0).unwrap(), &z, 1e-12));
+        // S11 with port 2 loaded by its own reference equals Γ of Z_in against z0_1
+        let zl = z0[1];
+        let zin = z[0] - z[1] * z[2] / (z[3] + zl);
+        let g = (zin - z0[0]) / (zin + z0[0]);
+        assert!((s[0] - g).norm() < 1e-13);
+    }
+
+    #[test]
+    fn bad_input_is_none() {
+        assert!(s_to_z(&[c(0.0, 0.0)], 1, &[0.0]).is_none());
+        assert!(s_to_z(&[c(f64::NAN, 0.0)], 1, &[50.0]).is_none());
+        assert!(s_to_z(&[c(0.0, 0.0); 3], 2, &[50.0, 50.0]).is_none());
+    }
+}

@@ -1,0 +1,320 @@
+//! The views of DESIGN §5: reductions of an N-port to what the part's user drives.
+//!
+//! Every reduction starts from Y with the unused ports grounded (V = 0 there), so a
+//! view on ports (a, b) of an N-port sees the Y submatrix over (a, b). Formulas:
+//!
+//! - `one_port`: Y_in = (1 − S11)/(z0·(1 + S11)).
+//! - `single_ended`: Y_in = Y_aa (port b and all others grounded).
+//! - `differential`: floating drive between a and b,
+//!   Z_in = Z11 − Z12 − Z21 + Z22 = (Y11 + Y12 + Y21 + Y22)/det Y (methods.md §2.2;
+//!   the Y form is used because it stays finite when the 2-port Z is ill-conditioned).
+//!   A pair with no path to ground (ΣY ≈ 0) has Y11 = −Y12 = −Y21 = Y22 and then
+//!   Z_in = 4/(Y11 − Y12 − Y21 + Y22), its exact limit.
+//! - `centre_tapped`: tap grounded, Y' = the 2×2 block of Y over the ends, then
+//!   `differential` (methods.md §2.3).
+//! - `transformer`: windings (a, b) and (c, d) each driven differentially: with the
+//!   incidence T = [e_a − e_b, e_c − e_d], Z_w = Tᵀ Y₄⁻¹ T where Y₄ is the Y block
+//!   over the four winding ports (solved, not inverted); for a 4-port whose Y is
+//!   singular, Z_w = Tᵀ Z T from the Z matrix.
+
+use super::{convert, Network, PortMap, View, ViewName, C64};
+
+/// Why a view cannot be made from a network.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ViewError {
+    /// The view needs a different number of ports.
+    #[error("view `{view}` needs {needs} ports, the data has {found}")]
+    WrongPorts {
+        /// the view asked for
+        view: ViewName,
+        /// what it needs, in words ("1", "at least 2", …)
+        needs: &'static str,
+        /// ports in the data
+        found: usize,
+    },
+    /// A port map names a port the data does not have, or uses one twice.
+    #[error("view `{view}`: port map {detail} (the data has {ports} ports)")]
+    BadPort {
+        /// the view asked for
+        view: ViewName,
+        /// what is wrong
+        detail: String,
+        /// ports in the data
+        ports: usize,
+    },
+    /// The reduction is singular at a frequency (e.g. a port shorted through).
+    #[error("view `{view}` does not exist at {f} Hz: the network matrix is singular there")]
+    Singular {
+        /// the view asked for
+        view: ViewName,
+        /// the frequency (Hz)
+        f: f64,
+    },
+    /// The data has no frequency points.
+    #[error("view `{view}`: the data has no frequency points")]
+    Empty {
+        /// the view asked for
+        view: ViewName,
+    },
+}
+
+/// The views that apply to data with `ports` ports, in the order reports list them:
+/// 1 → one_port; 2 → single_ended, differential; 3 → single_ended, centre_tapped;
+/// 4 → transformer; 5 or more → single_ended.
+pub fn views_for(ports: usize) -> Vec<ViewName> {
+    match ports {
+        0 => vec![],
+        1 => vec![ViewName::OnePort],
+        2 => vec![ViewName::SingleEnded, ViewName::Differential],
+        3 => vec![ViewName::SingleEnded, ViewName::CentreTapped],
+        4 => vec![ViewName::Transformer],
+        _ => vec![ViewName::SingleEnded],
+    }
+}
+
+fn check_ports(view: ViewName, list: &[usize], n: usize) -> Result<Vec<usize>, ViewError> {
+    let mut idx = Vec::with_capacity(list.len());
+    for &p in list {
+        if p == 0 || p > n {
+            return Err(ViewError::BadPort {
+                view,
+                detail: format!("names port {p}"),
+                ports: n,
+            });
+        }
+        if idx.contains(&(p - 1)) {
+            return Err(ViewError::BadPort {
+                view,
+                detail: format!("uses port {p} twice"),
+                ports: n,
+            });
+        }
+        idx.push(p - 1);
+    }
+    Ok(idx)
+}
+
+/// The Y submatrix over `idx` (0-based) at point k, row-major.
+fn y_sub(net: &Network, k: usize, idx: &[usize]) -> Option<Vec<C64>> {
+    let n = net.ports;
+    let y = net.y_block(k)?;
+    let mut out = Vec::with_capacity(idx.len() * idx.len());
+    for &i in idx {
+        for &j in idx {
+            out.push(y[i * n + j]);
+        }
+    }
+    Some(out)
+}
+
+/// Differential input admittance of a 2×2 Y (floating drive), see the module doc.
+pub fn differential_y(y: &[C64; 4]) -> Option<C64> {
+    let sum = y[0] + y[1] + y[2] + y[3];
+    let scale = y.iter().map(|c| c.norm()).fold(0.0, f64::max);
+    if !scale.is_finite() {
+        return None;
+    }
+    let yd = if sum.norm() <= 1e-12 * scale {
+        (y[0] - y[1] - y[2] + y[3]) / 4.0
+    } else {
+        (y[0] * y[3] - y[1] * y[2]) / sum
+    };
+    (yd.re.is_finite() && yd.im.is_finite()).then_some(yd)
+}
+
+fn arr4(v: &[C64]) -> [C64; 4] {
+    [v[0], v[1], v[2], v[3]]
+}
+
+/// Reduce `net` to the view `name`, with `ports` naming which ports play which role.
+pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, ViewError> {
+    let n = net.ports;
+    if net.points() == 0 {
+        return Err(ViewError::Empty { view: name });
+    }
+    let singular = |k: usize| ViewError::Singular {
+        view: name,
+        f: net.freq[k],
+    };
+    match name {
+        ViewName::OnePort => {
+            if n != 1 {
+                return Err(ViewError::WrongPorts {
+                    view: name,
+                    needs: "1",
+                    found: n,
+                });
+            }
+            let mut y_in = Vec::with_capacity(net.points());
+            for k in 0..net.points() {
+                let y = net.y_block(k).ok_or_else(|| singular(k))?;
+                y_in.push(y[0]);
+            }
+            Ok(View::Driving {
+                name,
+                y_in,
+                two_port: None,
+            })
+        }
+        ViewName::SingleEnded | ViewName::Differential | ViewName::CentreTapped => {
+            let min = if name == ViewName::CentreTapped { 3 } else { 2 };
+            if n < min {
+                return Err(ViewError::WrongPorts {
+                    view: name,
+                    needs: if min == 3 { "at least 3" } else { "at least 2" },
+                    found: n,
+                });
+            }
+            let idx = if name == ViewName::CentreTapped {
+                // the tap only has to be distinct from the ends; it is grounded like
+                // every other port outside the pair
+                check_ports(name, &[ports.pair[0], ports.pair[1], ports.tap], n)?[..2].to_vec()
+            } else {
+                check_ports(name, &ports.pair, n)?
+            };
+            let mut y_in = Vec::with_capacity(net.points());
+            let mut two = Vec::with_capacity(net.points());
+            for k in 0..net.points() {
+                let y = arr4(&y_sub(net, k, &idx).ok_or_else(|| singular(k))?);
+                let yin = if name == ViewName::SingleEnded {
+                    y[0]
+                } else {
+                    differential_y(&y).ok_or_else(|| singular(k))?
+                };
+                y_in.push(yin);
+                two.push(y);
+            }
+            Ok(View::Driving {
+                name,
+                y_in,
+                two_port: Some(two),
+            })
+        }
+        ViewName::Transformer => {
+            if n < 4 {
+                return Err(ViewError::WrongPorts {
+                    view: name,
+                    needs: "at least 4",
+                    found: n,
+                });
+            }
+            let w = ports.windings;
+            let idx = check_ports(name, &[w[0][0], w[0][1], w[1][0], w[1][1]], n)?;
+            let mut z = Vec::with_capacity(net.points());
+            for k in 0..net.points() {
+                let zw = winding_z(net, k, &idx).ok_or_else(|| singular(k))?;
+                z.push(zw);
+            }
+            Ok(View::Windings { name, z })
+        }
+    }
+}
+
+/// Z_w = Tᵀ Y₄⁻¹ T over the four winding ports (a, b, c, d), or Tᵀ Z T for a
+/// 4-port whose Y does not exist.
+fn winding_z(net: &Network, k: usize, idx: &[usize]) -> Option<[C64; 4]> {
+    // T in the local order (a, b, c, d): columns e_a − e_b and e_c − e_d, row-major 4×2
+    // padded to 4×4 with zero columns so the square solver serves.
+    let one = C64::new(1.0, 0.0);
+    let zero = C64::new(0.0, 0.0);
+    let t = [[one, zero], [-one, zero], [zero, one], [zero, -one]];
+    let tt_m_t = |m: &[C64]| -> [C64; 4] {
+        // Tᵀ M T for a 4×4 row-major M (local order)
+        let mut out = [zero; 4];
+        for (r, out_r) in out.chunks_mut(2).enumerate() {
+            for (c, o) in out_r.iter_mut().enumerate() {
+                let mut acc = zero;
+                for i in 0..4 {
+                    for j in 0..4 {
+                        acc += t[i][r] * m[i * 4 + j] * t[j][c];
+                    }
+                }
+                *o = acc;
+            }
+        }
+        out
+    };
+    if let Some(y4) = y_sub(net, k, idx) {
+        let mut rhs = vec![zero; 16];
+        for i in 0..4 {
+            rhs[i * 4] = t[i][0];
+            rhs[i * 4 + 1] = t[i][1];
+        }
+        if let Some(x) = convert::solve_block(&y4, &rhs, 4) {
+            // Tᵀ X: X's first two columns are Y₄⁻¹ T
+            let mut out = [zero; 4];
+            for r in 0..2 {
+                for c in 0..2 {
+                    out[r * 2 + c] = (0..4).map(|i| t[i][r] * x[i * 4 + c]).sum();
+                }
+            }
+            return Some(out);
+        }
+    }
+    if net.ports == 4 {
+        let z = net.z_block(k)?;
+        let mut local = vec![zero; 16];
+        for (a, &i) in idx.iter().enumerate() {
+            for (b, &j) in idx.iter().enumerate() {
+                local[a * 4 + b] = z[i * 4 + j];
+            }
+        }
+        return Some(tt_m_t(&local));
+    }
+    None
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn views_by_port_count() {
+        assert_eq!(views_for(1), vec![ViewName::OnePort]);
+        assert_eq!(
+            views_for(2),
+            vec![ViewName::SingleEnded, ViewName::Differential]
+        );
+        assert_eq!(views_for(4), vec![ViewName::Transformer]);
+    }
+
+    #[test]
+    fn floating_series_element() {
+        // A series impedance between ports 1 and 2 with no path to ground: the
+        // differential input impedance is the element itself (common practice, no source).
+        let zs = C64::new(3.0, 40.0);
+        let ys = C64::new(1.0, 0.0) / zs;
+        let y = [ys, -ys, -ys, ys];
+        let zd = C64::new(1.0, 0.0) / differential_y(&y).unwrap();
+        assert!((zd - zs).norm() < 1e-12);
+    }
+
+    #[test]
+    fn wrong_ports() {
+        let net = Network {
+            freq: vec![1e9],
+            ports: 1,
+            z0: vec![50.0],
+            s: vec![C64::new(0.2, 0.1)],
+        };
+        assert!(matches!(
+            view(&net, ViewName::Differential, &PortMap::default()),
+            Err(ViewError::WrongPorts { .. })
+        ));
+        assert!(view(&net, ViewName::OnePort, &PortMap::default()).is_ok());
+        let pm = PortMap {
+            pair: [1, 1],
+            ..Default::default()
+        };
+        let net2 = Network {
+            freq: vec![1e9],
+            ports: 2,
+            z0: vec![50.0; 2],
+            s: vec![C64::new(0.1, 0.0); 4],
+        };
+        assert!(matches!(
+            view(&net2, ViewName::SingleEnded, &pm),
+            Err(ViewError::BadPort { .. })
+        ));
+    }
+}
