@@ -1307,6 +1307,30 @@ proptest::proptest! {
     }
 
     #[test]
+    fn text_like_input_never_panics_and_results_are_sound(
+        parts in proptest::collection::vec(proptest::sample::select(vec![
+            "# ", "GHz ", "S ", "Y ", "Z ", "H ", "G ", "RI ", "MA ", "DB ", "R ", "50 ", "0 ", "-1 ",
+            "1 ", "2 ", ".5 ", "1e3 ", "\n", "\r\n", "\r", "! c\n", "[Version] 2.0\n",
+            "[Number of Ports] 2\n", "[Number of Ports] 1\n", "[Two-Port Data Order] 21_12\n",
+            "[Number of Frequencies] 2\n", "[Reference] 50 ", "[Matrix Format] Lower\n",
+            "[Network Data]\n", "[Noise Data]\n", "[Number of Noise Frequencies] 1\n", "[End]\n",
+            "[Begin Information]\n", "[End Information]\n",
+        ]), 0..60)
+    ) {
+        let text: String = parts.concat();
+        for name in ["p.s1p", "p.s2p", "p.ts"] {
+            if let Ok(t) = read_bytes(name, text.as_bytes()) {
+                let n = &t.network;
+                proptest::prop_assert_eq!(n.s.len(), n.points() * n.ports * n.ports);
+                proptest::prop_assert_eq!(n.z0.len(), n.ports);
+                proptest::prop_assert!(n.z0.iter().all(|&r| r > 0.0 && r.is_finite()));
+                proptest::prop_assert!(n.freq.windows(2).all(|w| w[0] < w[1]));
+                proptest::prop_assert!(n.s.iter().all(|c| c.is_finite()));
+            }
+        }
+    }
+
+    #[test]
     fn mutated_valid_files_never_panic(pos in 0usize..2000, byte in proptest::num::u8::ANY, cut in 0usize..2000) {
         for name in ["noise_data_v2.ts", "spec_v11_example5_four_port_ma.s4p", "matrix_format_lower.ts"] {
             let mut b = std::fs::read(path(name)).unwrap();
@@ -1327,5 +1351,53 @@ proptest::proptest! {
         for (a, b) in s.iter().zip(&net.s) {
             proptest::prop_assert!((a - b).norm() < 1e-12);
         }
+    }
+}
+
+bad!(
+    bad_db_overflow,
+    "bad_db_overflow.s1p",
+    K::NonFinite(_),
+    2,
+    1,
+    "DESIGN §4: never NaN/inf (10^(7000/20) overflows)"
+);
+bad!(
+    bad_z_singular,
+    "bad_z_singular.s1p",
+    K::Singular("Z"),
+    3,
+    1,
+    "Pozar §4.3: S = (Zn + I)⁻¹(Zn − I)"
+);
+
+#[test]
+fn keyword_leading_blanks() {
+    // reference notes §9: ` [Version] 2.0` occurs in real files; `[Version] 2` is 2.0
+    let t = read("keyword_leading_blanks.ts");
+    assert_eq!(t.version, Version::V2_0);
+    assert_eq!(t.warnings.len(), 1, "{:?}", t.warnings);
+    assert_eq!((t.warnings[0].line, t.warnings[0].column), (2, 3));
+}
+
+#[test]
+fn result_memory_is_the_matrix_size() {
+    // the result reserves from the file size (v1) or [Number of Frequencies] (v2),
+    // so its capacity stays close to its length (common practice, no source)
+    let net = sample_net(4, 3000, 99);
+    for version in [Version::V1_0, Version::V2_0] {
+        let opts = WriteOptions {
+            version,
+            format: Format::MA,
+            ..WriteOptions::default()
+        };
+        let text = write_string(&net, &opts);
+        let t = read_bytes("big.s4p", text.as_bytes()).unwrap();
+        assert_eq!(t.network.points(), 3000);
+        let (cap, len) = (t.network.s.capacity(), t.network.s.len());
+        assert!(
+            cap <= len + len / 8 + 64,
+            "{version:?}: capacity {cap} for {len}"
+        );
     }
 }

@@ -216,7 +216,10 @@ pub fn verdict_line(figs: &ViewFigures) -> Option<String> {
     let shield = |f: f64| -> String {
         match figs.curve_at("shield_gain", f) {
             Some(g) if g > 1.05 => format!("a ground shield would raise Q by {}× there", sig3(g)),
-            Some(g) => format!("a ground shield would not help (×{})", sig3(g)),
+            Some(g) if g > 0.0 => format!("a ground shield would not help (×{})", sig3(g)),
+            Some(_) => "a ground shield would not help: its extra capacitance would put the \
+                        SRF below this frequency"
+                .to_string(),
             None => "the shield gain is undefined there".to_string(),
         }
     };
@@ -259,9 +262,11 @@ pub fn verdict_line(figs: &ViewFigures) -> Option<String> {
             }
         }
     }
-    out.push_str(&format!(
-        " (π-model fit error {}%)",
-        sig3(100.0 * story.fit_error)
-    ));
+    if story.fit_error > 0.05 {
+        out.push_str(&format!(
+            " (the π-model fits these data only to {}%: read the loss split with care)",
+            sig3(100.0 * story.fit_error)
+        ));
+    }
     Some(out)
 }
