@@ -10,6 +10,8 @@ use clap::{Args, Parser, Subcommand};
 
 use crate::pipeline::{self, CacheChoice, Progress, RunOptions};
 
+pub mod inspect;
+
 /// Exit status: every part passed every error-level check, no drift.
 pub const EXIT_PASS: u8 = 0;
 /// Exit status: a failure, undecided check, unreadable or missing part, or drift.
@@ -36,6 +38,8 @@ pub struct Cli {
 pub enum Command {
     /// Judge every part of a library against the rules and report pass/fail.
     Check(CheckArgs),
+    /// Show every figure of every view of one Touchstone file.
+    Inspect(inspect::InspectArgs),
     /// Accept today's figures as the baseline for later drift checks.
     Record(RecordArgs),
     /// Join the report.json files of shards into one verdict and one set of reports.
@@ -184,6 +188,9 @@ pub fn run_args(args: Vec<std::ffi::OsString>) -> u8 {
     };
     let result = match cli.command {
         Command::Check(a) => check(&a),
+        Command::Inspect(a) => Ok(inspect::run_with(&a, |p| {
+            crate::touchstone::read_path(p).map_err(|e| e.to_string())
+        })),
         Command::Record(a) => record(&a),
         Command::Merge(a) => merge(&a),
         Command::Validate(a) => validate(&a),

@@ -4,7 +4,7 @@ use std::collections::BTreeMap;
 
 use nalgebra::DMatrix;
 
-use super::grid::{derivative, fin, first_fall, peak, rising_zero};
+use super::grid::{derivative, derivative_alt, fin, first_fall, peak, rising_zero};
 use super::{DataChecks, Kind, ViewFigures};
 use crate::network::{Network, View, C64};
 
@@ -82,9 +82,7 @@ fn ratio(a: f64, b: f64) -> Option<f64> {
 /// l = Im Z_in/ω, r = Re Z_in, q = Im Z_in/Re Z_in (signed),
 /// q_tank = (ω·dB/dω − B)/(2G) where B < 0 — the slope-of-susceptance Q of a
 /// parallel resonator (Pozar, *Microwave Engineering*, §6.1; methods.md §4.1).
-/// ω·dB/dω is taken as dP/dω − B with P = ω·B, differentiated by the three-point
-/// non-uniform formula: P is a quadratic in ω for any parallel R‖L‖C, so the slope
-/// is exact there on any grid.
+/// See [`omega_db_domega`] for the slope.
 fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
     let z: Vec<Option<C64>> = y.iter().map(|&v| z_of(v)).collect();
     let w: Vec<f64> = f.iter().map(|&x| TAU * x).collect();
@@ -99,13 +97,12 @@ fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
         .map(|z| z.and_then(|z| ratio(z.im, z.re)))
         .collect();
     let b: Curve = y.iter().map(|v| fin(v.im)).collect();
-    let p: Curve = y.iter().zip(&w).map(|(v, &w)| fin(w * v.im)).collect();
-    let dp = derivative(&w, &p);
+    let slope = omega_db_domega(&w, y, &z);
     let q_tank: Curve = (0..f.len())
         .map(|i| {
             let (g, bi) = (y[i].re, y[i].im);
             if bi < 0.0 {
-                ratio(dp[i]? - 2.0 * bi, 2.0 * g)
+                ratio(slope[i]? - bi, 2.0 * g)
             } else {
                 None
             }
@@ -131,6 +128,53 @@ fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
     figs.curves.insert("r".into(), r);
     figs.curves.insert("q".into(), q);
     figs.curves.insert("q_tank".into(), q_tank);
+}
+
+/// ω·dB/dω at every point, with the derivative taken on whichever of two smooth
+/// representations is locally smoother:
+/// - the susceptance form: ω·dB/dω = dP/dω − B with P = ω·B, which is a quadratic
+///   in ω for any parallel R‖L‖C (exact there, and good near self-resonance);
+/// - the impedance form: dY/dω = −Z′/Z², so ω·dB/dω = −ω·Im(Z′/Z²), where Z of a
+///   coil well below resonance is nearly R + jωL (exact for a series R-L).
+///
+/// Both use the three-point non-uniform derivative ([`derivative`]); at each point
+/// the form with the smaller estimated truncation error (the disagreement with the
+/// neighbouring stencil, [`derivative_alt`], carried to ω·dB/dω) is used. This
+/// matters where q is small and the numerator cancels, e.g. the first points of a
+/// sweep that starts low with a coarse step.
+fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
+    let b: Curve = y.iter().map(|v| fin(v.im)).collect();
+    let p: Curve = y.iter().zip(w).map(|(v, &w)| fin(w * v.im)).collect();
+    let (dp, dp2) = (derivative(w, &p), derivative_alt(w, &p));
+    let zr: Curve = z.iter().map(|z| z.map(|z| z.re)).collect();
+    let zi: Curve = z.iter().map(|z| z.map(|z| z.im)).collect();
+    let (dr, dr2) = (derivative(w, &zr), derivative_alt(w, &zr));
+    let (di, di2) = (derivative(w, &zi), derivative_alt(w, &zi));
+    (0..w.len())
+        .map(|i| {
+            let y_form = dp[i].zip(b[i]).map(|(d, b)| d - b);
+            let y_err = dp[i].zip(dp2[i]).map(|(a, b)| (a - b).abs());
+            let z_form = match (z[i], dr[i], di[i]) {
+                (Some(zz), Some(r), Some(x)) => {
+                    fin(-w[i] * (C64::new(r, x) / (zz * zz)).im).map(|v| (v, zz))
+                }
+                _ => None,
+            };
+            let z_err = match (z_form, dr[i], dr2[i], di[i], di2[i]) {
+                (Some((_, zz)), Some(r), Some(r2), Some(x), Some(x2)) => {
+                    fin(w[i] * C64::new(r - r2, x - x2).norm() / zz.norm_sqr())
+                }
+                _ => None,
+            };
+            match (y_form, z_form.map(|v| v.0)) {
+                (Some(yv), Some(zv)) => match (y_err, z_err) {
+                    (Some(ey), Some(ez)) if ez < ey => Some(zv),
+                    _ => Some(yv),
+                },
+                (a, b) => a.or(b),
+            }
+        })
+        .collect()
 }
 
 /// Capacitor figures from Z_in (DESIGN §6; methods.md §5.1): c = −1/(ω·Im Z_in),

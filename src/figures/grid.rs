@@ -48,6 +48,32 @@ pub fn interp(f: &[f64], y: &[Option<f64>], x: f64) -> Option<f64> {
 /// at interior points, one-sided at the ends). Two points: the secant. None where
 /// a needed sample is missing or the grid has fewer than two points.
 pub fn derivative(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
+    stencil_derivative(x, y, |i, n| i.clamp(1, n - 2))
+}
+
+/// The same derivative from the neighbouring stencil (the parabola through the
+/// samples centred one point further up, or down at the top end). Its difference
+/// from [`derivative`] estimates the truncation error (both are O(h²·y‴)). None
+/// for grids of fewer than four points.
+pub fn derivative_alt(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
+    if x.len() < 4 {
+        return vec![None; x.len()];
+    }
+    stencil_derivative(x, y, |i, n| {
+        let j = i.clamp(1, n - 2);
+        if j < n - 2 {
+            j + 1
+        } else {
+            j - 1
+        }
+    })
+}
+
+fn stencil_derivative(
+    x: &[f64],
+    y: &[Option<f64>],
+    centre: impl Fn(usize, usize) -> usize,
+) -> Vec<Option<f64>> {
     let n = x.len();
     let mut out = vec![None; n];
     if n < 2 {
@@ -62,7 +88,7 @@ pub fn derivative(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
     }
     for (i, o) in out.iter_mut().enumerate() {
         // the three samples used, and the point at which the parabola is differentiated
-        let j = i.clamp(1, n - 2);
+        let j = centre(i, n);
         let (xa, xb, xc) = (x[j - 1], x[j], x[j + 1]);
         let (Some(ya), Some(yb), Some(yc)) = (y[j - 1], y[j], y[j + 1]) else {
             continue;

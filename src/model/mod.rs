@@ -5,6 +5,10 @@
 //!
 //! Knows nothing of files or rules.
 
+pub mod circuit;
+
+pub use circuit::shunt_y;
+
 /// What limits Q at a frequency (DESIGN §6.1).
 #[derive(
     Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize, serde::Deserialize,
