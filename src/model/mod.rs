@@ -6,8 +6,11 @@
 //! Knows nothing of files or rules.
 
 pub mod circuit;
+pub mod fit;
+pub mod loss;
 
 pub use circuit::shunt_y;
+pub use fit::{Drive, Fitted, Lm, Solver};
 
 /// What limits Q at a frequency (DESIGN §6.1).
 #[derive(
@@ -102,11 +105,163 @@ pub fn mechanism_of(substrate_factor: f64, resonance_factor: f64) -> Mechanism {
 
 use crate::figures::ViewFigures;
 use crate::network::View;
+use crate::units::{eng, sig3};
+
+/// Names of the model scalars, in the order of [`PiModel`]'s fields.
+pub const PARAM_NAMES: [&str; 10] = [
+    "ls", "rdc", "rac", "cs", "cox1", "csi1", "rsi1", "cox2", "csi2", "rsi2",
+];
+
+/// Names of the loss curves [`analyse`] adds.
+pub const CURVE_NAMES: [&str; 4] = [
+    "q_conductor",
+    "substrate_factor",
+    "resonance_factor",
+    "shield_gain",
+];
+
+impl PiModel {
+    /// The parameters in the order of [`PARAM_NAMES`].
+    pub fn values(&self) -> [f64; 10] {
+        [
+            self.ls, self.rdc, self.rac, self.cs, self.cox1, self.csi1, self.rsi1, self.cox2,
+            self.csi2, self.rsi2,
+        ]
+    }
+}
 
 /// Fit the π-model to an inductor view and add the loss figures to `figs`
 /// (curves `q_conductor`, `substrate_factor`, `resonance_factor`, `shield_gain`;
-/// the model parameters and `fit_error` as scalars; `figs.loss`).
+/// the model parameters and `fit_error` as scalars; `figs.loss`). Uses the view's
+/// `srf` scalar as the top of the fitted band and `f_q_half` for `q_drop_cause`.
+/// When the fit is refused the scalars and curves are present but null and
+/// `figs.loss` carries the reason.
 pub fn analyse(view: &View, figs: &mut ViewFigures) {
-    let _ = view;
-    figs.loss = Some(Err("the π-model fit is not built yet".to_string()));
+    analyse_with(view, figs, &Lm::default());
+}
+
+/// [`analyse`] with a chosen least-squares solver.
+pub fn analyse_with(view: &View, figs: &mut ViewFigures, solver: &dyn Solver) {
+    let n = figs.freq.len();
+    let outcome = match view {
+        View::Driving { name, y_in, .. } => {
+            fit::fit_view(view, &figs.freq, figs.scalar("srf"), solver)
+                .map(|fitted| (fitted, Drive::of(*name), y_in))
+        }
+        View::Windings { .. } => Err("the π-model fits inductor views only".to_string()),
+    };
+    match outcome {
+        Err(reason) => {
+            for name in PARAM_NAMES.iter().chain(&["fit_error"]) {
+                figs.scalars.insert(name.to_string(), None);
+            }
+            for name in CURVE_NAMES {
+                figs.curves.insert(name.to_string(), vec![None; n]);
+            }
+            figs.loss = Some(Err(reason));
+        }
+        Ok((fitted, drive, y_in)) => {
+            let m = fitted.model;
+            for (name, v) in PARAM_NAMES.iter().zip(m.values()) {
+                figs.scalars
+                    .insert(name.to_string(), v.is_finite().then_some(v));
+            }
+            figs.scalars
+                .insert("fit_error".into(), Some(fitted.fit_error));
+            let k = n.min(y_in.len());
+            let mut c = loss::curves(&m, &figs.freq[..k], &y_in[..k], drive);
+            for v in [
+                &mut c.q_conductor,
+                &mut c.substrate_factor,
+                &mut c.resonance_factor,
+                &mut c.shield_gain,
+            ] {
+                v.resize(n, None);
+            }
+            c.mechanism.resize(n, None);
+            figs.curves.insert("q_conductor".into(), c.q_conductor);
+            figs.curves
+                .insert("substrate_factor".into(), c.substrate_factor);
+            figs.curves
+                .insert("resonance_factor".into(), c.resonance_factor);
+            figs.curves.insert("shield_gain".into(), c.shield_gain);
+            let q_drop_cause = figs.scalar("f_q_half").and_then(|f| figs.mechanism_at(f));
+            let loss_bands = loss::loss_bands(&figs.freq, &c.mechanism);
+            figs.loss = Some(Ok(LossStory {
+                model: m,
+                fit_error: fitted.fit_error,
+                mechanism: c.mechanism,
+                q_drop_cause,
+                loss_bands,
+            }));
+        }
+    }
+}
+
+/// One line in plain words on why Q falls and whether a ground shield would pay,
+/// for an inductor view that has been through [`analyse`]; None for other views.
+///
+/// E.g. "Q peaks 9.1 at 2.3 GHz; falls by half at 6.1 GHz because of substrate loss;
+/// a ground shield would raise Q by 1.4× there".
+pub fn verdict_line(figs: &ViewFigures) -> Option<String> {
+    let story = match figs.loss.as_ref()? {
+        Err(reason) => return Some(format!("no π-model fit: {reason}")),
+        Ok(s) => s,
+    };
+    let mut out = match (figs.scalar("q_peak"), figs.scalar("f_q_peak")) {
+        (Some(q), Some(f)) => format!("Q peaks {} at {}", sig3(q), eng(f, "Hz")),
+        _ => "Q has no peak below the SRF".to_string(),
+    };
+    let srf = figs.scalar("srf");
+    let shield = |f: f64| -> String {
+        match figs.curve_at("shield_gain", f) {
+            Some(g) if g > 1.05 => format!("a ground shield would raise Q by {}× there", sig3(g)),
+            Some(g) => format!("a ground shield would not help (×{})", sig3(g)),
+            None => "the shield gain is undefined there".to_string(),
+        }
+    };
+    match (figs.scalar("f_q_half"), story.q_drop_cause) {
+        (Some(fh), Some(cause)) => {
+            let why = match cause {
+                Mechanism::Conductor => "because of conductor (skin-effect) loss".to_string(),
+                Mechanism::Substrate => "because of substrate loss".to_string(),
+                Mechanism::Resonance => match srf {
+                    Some(s) => format!("because it nears self-resonance (SRF {})", eng(s, "Hz")),
+                    None => "because it nears self-resonance".to_string(),
+                },
+            };
+            out.push_str(&format!(
+                "; falls by half at {} {why}; {}",
+                eng(fh, "Hz"),
+                shield(fh)
+            ));
+        }
+        _ => {
+            let f_end = figs.freq.last().copied()?;
+            let top = srf.map(|s| s.min(f_end)).unwrap_or(f_end);
+            let at = figs
+                .freq
+                .iter()
+                .rev()
+                .copied()
+                .find(|&f| f < top)
+                .unwrap_or(top);
+            out.push_str(&format!(
+                "; stays above half of that up to {}",
+                eng(top, "Hz")
+            ));
+            if let Some(m) = figs.mechanism_at(at) {
+                out.push_str(&format!(
+                    "; {} loss rules there; {}",
+                    m.as_str(),
+                    shield(at)
+                ));
+            }
+        }
+    }
+    out.push_str(&format!(
+        " (π-model fit error {}%)",
+        sig3(100.0 * story.fit_error)
+    ));
+    Some(out)
 }

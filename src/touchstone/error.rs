@@ -258,7 +258,7 @@ pub enum ErrorKind {
         keyword_line: usize,
     },
     /// `[Mixed-Mode Order]`
-    #[error("expected single-ended data: mixed-mode files (`[Mixed-Mode Order]`) are not supported; convert the data to single-ended S-parameters first")]
+    #[error("expected single-ended data, found `[Mixed-Mode Order]` (mixed-mode files are not supported; convert the data to single-ended S-parameters first)")]
     MixedMode,
     /// `[Version]` other than 2.0 or 2.1
     #[error("expected `[Version] 2.0` or `[Version] 2.1`, found {0}")]

@@ -1,0 +1,244 @@
+//! A run against a baseline: each part's drift quantities compared with their limits,
+//! parts that are new since the baseline, parts that have gone, rules that changed.
+//!
+//! The limits belong to the rules: the caller hands in the comparison (for a
+//! [`Measure`] and the baseline's value, the outcome), normally
+//! `rules::DriftRule::compare` of the rule that named the quantity.
+
+use std::collections::BTreeSet;
+
+use super::{in_shard, Baseline, Judged, Measure};
+use crate::verdict::{CheckStatus, DriftOutcome, PartReport, PartStatus, RulesFileInfo};
+
+/// The reports of a run judged against `baseline`, sorted by path: drift outcomes
+/// filled in (a drift that does not pass fails its part), parts not in the baseline
+/// marked `new` (they fail only with `strict`), and a `missing` report for every part
+/// of the baseline that is no longer in the library. In a sharded run only the
+/// baseline's parts of the same shard can be missing.
+pub fn apply(
+    judged: Vec<Judged>,
+    baseline: &Baseline,
+    shard: Option<[usize; 2]>,
+    strict: bool,
+    compare: impl Fn(&Measure, Option<f64>) -> Option<DriftOutcome>,
+) -> Vec<PartReport> {
+    let present: BTreeSet<String> = judged.iter().map(|j| j.report.path.clone()).collect();
+    let mut parts: Vec<PartReport> = judged
+        .into_iter()
+        .map(|j| {
+            let mut r = j.report;
+            match baseline.part(&r.path) {
+                None => {
+                    r.new = true;
+                    if strict && matches!(r.status, PartStatus::Pass | PartStatus::Unchecked) {
+                        r.status = PartStatus::Fail;
+                        r.error.get_or_insert_with(|| {
+                            "new part, not in the baseline (a failure with --strict)".to_string()
+                        });
+                    }
+                }
+                Some(base) => {
+                    for m in &j.measures {
+                        let before = base.drift.get(&m.quantity).copied().flatten();
+                        if let Some(outcome) = compare(m, before) {
+                            r.drift.push(outcome);
+                        }
+                    }
+                    let drifted = r.drift.iter().any(|d| d.status != CheckStatus::Pass);
+                    if drifted && matches!(r.status, PartStatus::Pass | PartStatus::Unchecked) {
+                        r.status = PartStatus::Fail;
+                    }
+                }
+            }
+            r
+        })
+        .collect();
+    for base in &baseline.parts {
+        if present.contains(&base.path) || shard.is_some_and(|s| !in_shard(&base.path, s)) {
+            continue;
+        }
+        parts.push(PartReport {
+            path: base.path.clone(),
+            status: PartStatus::Missing,
+            kind: base.kind,
+            view: base.view,
+            figures: Default::default(),
+            q_drop_cause: None,
+            checks: Vec::new(),
+            drift: Vec::new(),
+            new: false,
+            error: Some("in the baseline but no longer in the library".to_string()),
+            plot: None,
+        });
+    }
+    parts.sort_by(|a, b| a.path.cmp(&b.path));
+    parts
+}
+
+/// Rules files that differ from the baseline's: changed hash, added or dropped (by
+/// path as given), sorted.
+pub fn rules_changed(now: &[RulesFileInfo], baseline: &Baseline) -> Vec<String> {
+    let then: BTreeSet<(&str, &str)> = baseline
+        .rules
+        .iter()
+        .map(|r| (r.path.as_str(), r.hash.as_str()))
+        .collect();
+    let now_set: BTreeSet<(&str, &str)> = now
+        .iter()
+        .map(|r| (r.path.as_str(), r.hash.as_str()))
+        .collect();
+    let changed: BTreeSet<String> = then
+        .symmetric_difference(&now_set)
+        .map(|(p, _)| p.to_string())
+        .collect();
+    changed.into_iter().collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::baseline::{BaselinePart, BASELINE_FORMAT};
+    use std::collections::BTreeMap;
+
+    fn report(path: &str, status: PartStatus) -> PartReport {
+        PartReport {
+            path: path.into(),
+            status,
+            kind: None,
+            view: None,
+            figures: BTreeMap::new(),
+            q_drop_cause: None,
+            checks: vec![],
+            drift: vec![],
+            new: false,
+            error: None,
+            plot: None,
+        }
+    }
+
+    fn judged(path: &str, l: f64) -> Judged {
+        Judged {
+            report: report(path, PartStatus::Pass),
+            hash: Some("h".into()),
+            measures: vec![Measure {
+                rules_file: "r.yaml".into(),
+                quantity: "l(band.mid)".into(),
+                now: Some(l),
+            }],
+            cached: false,
+        }
+    }
+
+    fn baseline(paths: &[&str]) -> Baseline {
+        Baseline::from_judged(
+            "lib",
+            vec![],
+            &paths.iter().map(|p| judged(p, 1e-9)).collect::<Vec<_>>(),
+        )
+    }
+
+    /// A 1 % relative limit, standing in for the rules' comparison.
+    fn one_percent(m: &Measure, before: Option<f64>) -> Option<DriftOutcome> {
+        let change = match (before, m.now) {
+            (Some(b), Some(n)) if b != 0.0 => Some((n - b) / b.abs()),
+            _ => None,
+        };
+        Some(DriftOutcome {
+            quantity: m.quantity.clone(),
+            baseline: before,
+            now: m.now,
+            change,
+            limit: "1%".into(),
+            status: match change {
+                Some(c) if c.abs() <= 0.01 => CheckStatus::Pass,
+                Some(_) => CheckStatus::Fail,
+                None => CheckStatus::Undecided,
+            },
+        })
+    }
+
+    #[test]
+    fn drift_new_and_missing() {
+        let base = baseline(&["a.s2p", "b.s2p", "gone.s2p"]);
+        let now = vec![
+            judged("b.s2p", 1.03e-9),
+            judged("a.s2p", 1.0e-9),
+            judged("c.s2p", 1.0e-9),
+        ];
+        let parts = apply(now, &base, None, false, one_percent);
+        let paths: Vec<&str> = parts.iter().map(|p| p.path.as_str()).collect();
+        assert_eq!(paths, ["a.s2p", "b.s2p", "c.s2p", "gone.s2p"]);
+        assert_eq!(parts[0].status, PartStatus::Pass);
+        assert_eq!(parts[0].drift[0].change, Some(0.0));
+        assert_eq!(parts[1].status, PartStatus::Fail);
+        let c = parts[1].drift[0].change.unwrap();
+        assert!((c - 0.03).abs() < 1e-12, "{c}");
+        assert!(parts[2].new && parts[2].status == PartStatus::Pass);
+        assert!(parts[2].drift.is_empty());
+        assert_eq!(parts[3].status, PartStatus::Missing);
+        assert!(parts[3].error.as_deref().unwrap().contains("no longer"));
+    }
+
+    #[test]
+    fn new_parts_fail_only_when_strict() {
+        let base = baseline(&["a.s2p"]);
+        let parts = apply(vec![judged("n.s2p", 1e-9)], &base, None, true, one_percent);
+        let n = parts.iter().find(|p| p.path == "n.s2p").unwrap();
+        assert!(n.new);
+        assert_eq!(n.status, PartStatus::Fail);
+        assert!(n.error.as_deref().unwrap().contains("--strict"));
+    }
+
+    #[test]
+    fn a_failing_part_stays_failed_and_an_unreadable_one_unreadable() {
+        let base = baseline(&["a.s2p", "u.s2p"]);
+        let mut a = judged("a.s2p", 1.0e-9);
+        a.report.status = PartStatus::Fail;
+        let mut u = judged("u.s2p", 1.5e-9);
+        u.report.status = PartStatus::Unreadable;
+        let parts = apply(vec![a, u], &base, None, false, one_percent);
+        assert_eq!(parts[0].status, PartStatus::Fail);
+        assert_eq!(parts[1].status, PartStatus::Unreadable);
+    }
+
+    #[test]
+    fn a_shard_misses_only_its_own_parts() {
+        let names: Vec<String> = (0..30).map(|i| format!("p{i}.s2p")).collect();
+        let refs: Vec<&str> = names.iter().map(|s| s.as_str()).collect();
+        let base = baseline(&refs);
+        let mut missing = 0;
+        for k in 1..=3 {
+            let parts = apply(vec![], &base, Some([k, 3]), false, one_percent);
+            assert!(parts.iter().all(|p| in_shard(&p.path, [k, 3])));
+            missing += parts.len();
+        }
+        assert_eq!(missing, 30);
+    }
+
+    #[test]
+    fn changed_rules_by_path_and_hash() {
+        let info = |p: &str, h: &str| RulesFileInfo {
+            path: p.into(),
+            hash: h.into(),
+            suite: String::new(),
+        };
+        let base = Baseline {
+            format: BASELINE_FORMAT.into(),
+            tool_version: "x".into(),
+            library: "lib".into(),
+            rules: vec![
+                info("a.yaml", "1"),
+                info("b.yaml", "2"),
+                info("c.yaml", "3"),
+            ],
+            parts: Vec::<BaselinePart>::new(),
+        };
+        let now = [
+            info("a.yaml", "1"),
+            info("b.yaml", "9"),
+            info("d.yaml", "4"),
+        ];
+        assert_eq!(rules_changed(&now, &base), ["b.yaml", "c.yaml", "d.yaml"]);
+        assert!(rules_changed(&base.rules, &base).is_empty());
+    }
+}

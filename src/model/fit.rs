@@ -1,0 +1,843 @@
+//! Fitting the π-model to a view: analytic starting values (methods.md §3.4), then a
+//! Levenberg–Marquardt polish on the relative error of the branch admittances, with
+//! every parameter in log space (so it stays positive) and scaled by its start value.
+//!
+//! The solver sits behind [`Solver`] so another one could replace it; the branch
+//! forms (series, shunt, whole one-port) behind [`Form`].
+
+use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt, TerminationReason};
+use nalgebra::{storage::Owned, DMatrix, DVector, Dyn};
+
+use super::circuit::{shunt_y, F_REF};
+use super::PiModel;
+use crate::network::{View, ViewName, C64};
+
+const TAU: f64 = 2.0 * std::f64::consts::PI;
+
+/// Fewest sweep points below the SRF that a fit accepts.
+pub const MIN_POINTS: usize = 8;
+
+/// How the view drives the π: port 2 grounded, or a floating drive across both ports.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Drive {
+    /// Y_in = Y_ser + Y_sh1 (`one_port`, `single_ended`).
+    Grounded,
+    /// Y_in = Y_ser + Y_sh1·Y_sh2/(Y_sh1 + Y_sh2) (`differential`, `centre_tapped`).
+    Floating,
+}
+
+impl Drive {
+    /// The drive of a view.
+    pub fn of(name: ViewName) -> Drive {
+        match name {
+            ViewName::Differential | ViewName::CentreTapped => Drive::Floating,
+            _ => Drive::Grounded,
+        }
+    }
+}
+
+impl PiModel {
+    /// Input admittance of the model under `drive`.
+    pub fn y_drive(&self, f: f64, drive: Drive) -> C64 {
+        match drive {
+            Drive::Grounded => self.y_one_port(f),
+            Drive::Floating => self.y_differential(f),
+        }
+    }
+}
+
+/// A fitted model and how well it matches.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Fitted {
+    /// the parameters
+    pub model: PiModel,
+    /// rms relative error of the model's Y_in against the data over the fitted band
+    pub fit_error: f64,
+    /// number of sweep points in the fitted band
+    pub points: usize,
+}
+
+/// A parametric admittance Y(x, f) with its gradient ∂Y/∂x_k (physical parameters).
+pub trait Form {
+    /// number of parameters
+    fn n_params(&self) -> usize;
+    /// Y at `f` for parameters `x`; writes ∂Y/∂x_k into `grad` (length `n_params()`).
+    fn eval(&self, x: &[f64], f: f64, grad: &mut [C64]) -> C64;
+}
+
+/// A least-squares solver over log-scaled parameters: minimise Σ |Y(x, f_i) − d_i|²/|d_i|²
+/// from the start `x0` (every entry > 0). Returns the parameters or why not.
+pub trait Solver {
+    /// Solve; `x0` also sets the scale.
+    fn solve(
+        &self,
+        form: &dyn Form,
+        f: &[f64],
+        data: &[C64],
+        x0: &[f64],
+    ) -> Result<Vec<f64>, String>;
+}
+
+/// The Levenberg–Marquardt solver of the `levenberg-marquardt` crate (a port of MINPACK).
+#[derive(Debug, Clone, Copy)]
+pub struct Lm {
+    /// evaluations allowed per parameter (+1), the crate's "patience"
+    pub patience: usize,
+}
+
+impl Default for Lm {
+    fn default() -> Self {
+        Lm { patience: 60 }
+    }
+}
+
+struct Problem<'a> {
+    form: &'a dyn Form,
+    f: &'a [f64],
+    data: &'a [C64],
+    weight: Vec<f64>,
+    scale: Vec<f64>,
+    p: DVector<f64>,
+    x: Vec<f64>,
+}
+
+/// Log-space bound: keeps exp() finite when a parameter wants to vanish.
+const P_MAX: f64 = 60.0;
+
+impl Problem<'_> {
+    fn update_x(&mut self) {
+        for k in 0..self.scale.len() {
+            self.x[k] = self.scale[k] * self.p[k].clamp(-P_MAX, P_MAX).exp();
+        }
+    }
+}
+
+impl LeastSquaresProblem<f64, Dyn, Dyn> for Problem<'_> {
+    type ResidualStorage = Owned<f64, Dyn>;
+    type JacobianStorage = Owned<f64, Dyn, Dyn>;
+    type ParameterStorage = Owned<f64, Dyn>;
+
+    fn set_params(&mut self, p: &DVector<f64>) {
+        self.p.copy_from(p);
+        self.update_x();
+    }
+
+    fn params(&self) -> DVector<f64> {
+        self.p.clone()
+    }
+
+    fn residuals(&self) -> Option<DVector<f64>> {
+        let n = self.f.len();
+        let mut r = DVector::zeros(2 * n);
+        let mut g = vec![C64::new(0.0, 0.0); self.form.n_params()];
+        for i in 0..n {
+            let y = self.form.eval(&self.x, self.f[i], &mut g);
+            let e = (y - self.data[i]) * self.weight[i];
+            if !(e.re.is_finite() && e.im.is_finite()) {
+                return None;
+            }
+            r[2 * i] = e.re;
+            r[2 * i + 1] = e.im;
+        }
+        Some(r)
+    }
+
+    fn jacobian(&self) -> Option<DMatrix<f64>> {
+        let n = self.f.len();
+        let m = self.form.n_params();
+        let mut j = DMatrix::zeros(2 * n, m);
+        let mut g = vec![C64::new(0.0, 0.0); m];
+        for i in 0..n {
+            self.form.eval(&self.x, self.f[i], &mut g);
+            for k in 0..m {
+                // ∂r/∂p_k = x_k ∂r/∂x_k (log space); p clamped ⇒ flat
+                let d = if self.p[k].abs() >= P_MAX {
+                    C64::new(0.0, 0.0)
+                } else {
+                    g[k] * (self.x[k] * self.weight[i])
+                };
+                if !(d.re.is_finite() && d.im.is_finite()) {
+                    return None;
+                }
+                j[(2 * i, k)] = d.re;
+                j[(2 * i + 1, k)] = d.im;
+            }
+        }
+        Some(j)
+    }
+}
+
+impl Solver for Lm {
+    fn solve(
+        &self,
+        form: &dyn Form,
+        f: &[f64],
+        data: &[C64],
+        x0: &[f64],
+    ) -> Result<Vec<f64>, String> {
+        if x0.iter().any(|&v| !(v.is_finite() && v > 0.0)) {
+            return Err("no usable starting values".into());
+        }
+        let weight = data
+            .iter()
+            .map(|d| {
+                let a = d.norm();
+                if a > 0.0 && a.is_finite() {
+                    1.0 / a
+                } else {
+                    0.0
+                }
+            })
+            .collect();
+        let mut prob = Problem {
+            form,
+            f,
+            data,
+            weight,
+            scale: x0.to_vec(),
+            p: DVector::zeros(x0.len()),
+            x: x0.to_vec(),
+        };
+        prob.update_x();
+        let (prob, report) = LevenbergMarquardt::new()
+            .with_ftol(1e-12)
+            .with_xtol(1e-10)
+            .with_gtol(1e-12)
+            .with_patience(self.patience)
+            .minimize(prob);
+        match report.termination {
+            TerminationReason::ResidualsZero
+            | TerminationReason::Orthogonal
+            | TerminationReason::Converged { .. }
+            | TerminationReason::NoImprovementPossible(_) => Ok(prob.x),
+            TerminationReason::LostPatience => Err(format!(
+                "the least-squares fit did not converge within {} evaluations",
+                report.number_of_evaluations
+            )),
+            other => Err(format!("the least-squares fit failed ({other:?})")),
+        }
+    }
+}
+
+/// The series branch: Y = 1/(R_dc + R_ac√(f/1 GHz) + jωL_s) + jωC_s; x = [ls, rdc, rac, cs].
+pub struct SeriesForm;
+
+impl Form for SeriesForm {
+    fn n_params(&self) -> usize {
+        4
+    }
+    fn eval(&self, x: &[f64], f: f64, g: &mut [C64]) -> C64 {
+        let w = TAU * f;
+        let s = (f / F_REF).sqrt();
+        let z = C64::new(x[1] + x[2] * s, w * x[0]);
+        let yc = C64::new(1.0, 0.0) / z;
+        let y2 = -yc * yc; // ∂(1/Z)/∂Z
+        g[0] = y2 * C64::new(0.0, w);
+        g[1] = y2;
+        g[2] = y2 * s;
+        g[3] = C64::new(0.0, w);
+        yc + C64::new(0.0, w * x[3])
+    }
+}
+
+/// One shunt branch: C_ox in series with R_si ∥ C_si; x = [cox, csi, rsi].
+pub struct ShuntForm;
+
+fn shunt_eval(x: &[f64], f: f64, g: &mut [C64]) -> C64 {
+    let w = TAU * f;
+    let a = C64::new(0.0, -1.0 / (w * x[0])); // 1/(jωC_ox)
+    let b = C64::new(1.0, 0.0) / C64::new(1.0 / x[2], w * x[1]); // R_si ∥ C_si
+    let y = C64::new(1.0, 0.0) / (a + b);
+    let y2 = y * y;
+    g[0] = y2 * a / x[0];
+    g[1] = y2 * b * b * C64::new(0.0, w);
+    g[2] = -y2 * b * b / (x[2] * x[2]);
+    y
+}
+
+impl Form for ShuntForm {
+    fn n_params(&self) -> usize {
+        3
+    }
+    fn eval(&self, x: &[f64], f: f64, g: &mut [C64]) -> C64 {
+        shunt_eval(x, f, g)
+    }
+}
+
+/// The whole one-port: the coil plus one (effective) shunt, with C_s folded into the
+/// shunt (see [`fit_view`]); x = [ls, rdc, rac, cox, csi, rsi].
+pub struct OnePortForm;
+
+impl Form for OnePortForm {
+    fn n_params(&self) -> usize {
+        6
+    }
+    fn eval(&self, x: &[f64], f: f64, g: &mut [C64]) -> C64 {
+        let mut gs = [C64::new(0.0, 0.0); 4];
+        let xs = [x[0], x[1], x[2], 0.0];
+        let ys = SeriesForm.eval(&xs, f, &mut gs);
+        g[..3].copy_from_slice(&gs[..3]);
+        ys + shunt_eval(&x[3..], f, &mut g[3..])
+    }
+}
+
+/// Weighted linear least squares with scaled columns: minimise Σ w_i (a·u_i + b·v_i − t_i)²
+/// for the two unknowns (a, b). None when singular.
+fn lsq2(u: &[f64], v: &[f64], t: &[f64], w: &[f64]) -> Option<(f64, f64)> {
+    let su = u.iter().map(|x| x * x).sum::<f64>().sqrt();
+    let sv = v.iter().map(|x| x * x).sum::<f64>().sqrt();
+    if !(su > 0.0 && sv > 0.0) {
+        return None;
+    }
+    let (mut a11, mut a12, mut a22, mut b1, mut b2) = (0.0, 0.0, 0.0, 0.0, 0.0);
+    for i in 0..u.len() {
+        let (x, y) = (u[i] / su, v[i] / sv);
+        a11 += w[i] * x * x;
+        a12 += w[i] * x * y;
+        a22 += w[i] * y * y;
+        b1 += w[i] * x * t[i];
+        b2 += w[i] * y * t[i];
+    }
+    let det = a11 * a22 - a12 * a12;
+    if det.is_nan() || det.abs() <= 1e-14 * a11 * a22 {
+        return None;
+    }
+    let a = (b1 * a22 - b2 * a12) / det / su;
+    let b = (a11 * b2 - a12 * b1) / det / sv;
+    (a.is_finite() && b.is_finite()).then_some((a, b))
+}
+
+fn mean(v: impl Iterator<Item = f64>) -> Option<f64> {
+    let (s, n) = v.fold((0.0, 0usize), |(s, n), x| (s + x, n + 1));
+    (n > 0).then(|| s / n as f64)
+}
+
+/// Starting values of the series branch from Y_ser = −Y12 (methods.md §3.4): L and R
+/// from the coil once C_s is taken out, C_s from the high-frequency excess of
+/// Im Y_ser over the coil's, R_ac from the rise of Re(1/(Y_ser − jωC_s)) against √f.
+/// Err when the branch is not inductive at the lowest frequency.
+pub fn series_start(f: &[f64], ys: &[C64]) -> Result<[f64; 4], String> {
+    let n = f.len();
+    let z0 = C64::new(1.0, 0.0) / ys[0];
+    if z0.im.is_nan() || z0.im <= 0.0 {
+        return Err(format!(
+            "not inductor-like: the series branch −1/Y12 is not inductive at {:.4e} Hz",
+            f[0]
+        ));
+    }
+    let s: Vec<f64> = f.iter().map(|&x| (x / F_REF).sqrt()).collect();
+    let top = (n * 3 / 4).min(n - 1);
+    let mut cs = 0.0;
+    let (mut ls, mut rdc, mut rac) = (z0.im / (TAU * f[0]), z0.re, 0.0);
+    for _ in 0..3 {
+        let zc: Vec<C64> = (0..n)
+            .map(|i| C64::new(1.0, 0.0) / (ys[i] - C64::new(0.0, TAU * f[i] * cs)))
+            .collect();
+        let low = (n / 2).max(1);
+        ls = mean((0..low).map(|i| zc[i].im / (TAU * f[i]))).unwrap_or(ls);
+        let one = vec![1.0; n];
+        let re: Vec<f64> = zc.iter().map(|z| z.re).collect();
+        let w = vec![1.0; n];
+        match lsq2(&one, &s, &re, &w) {
+            Some((a, b)) if a > 0.0 => {
+                rdc = a;
+                rac = b.max(0.0);
+            }
+            _ => {
+                rdc = zc[0].re;
+                rac = 0.0;
+            }
+        }
+        let coil = |i: usize| C64::new(1.0, 0.0) / C64::new(rdc + rac * s[i], TAU * f[i] * ls);
+        cs = mean((top..n).map(|i| (ys[i] - coil(i)).im / (TAU * f[i])))
+            .unwrap_or(0.0)
+            .max(0.0);
+    }
+    if !(ls > 0.0 && ls.is_finite()) {
+        return Err("not inductor-like: the series inductance comes out ≤ 0".into());
+    }
+    if !(rdc > 0.0 && rdc.is_finite()) {
+        return Err("not inductor-like: the series resistance comes out ≤ 0".into());
+    }
+    // a vanishing element still needs a positive start in log space
+    let tiny_c = 1e-6 * ls / (rdc * rdc + (TAU * f[n - 1] * ls).powi(2)) * 1e-3;
+    Ok([ls, rdc, rac.max(1e-4 * rdc), cs.max(tiny_c.max(1e-21))])
+}
+
+/// Starting values of one shunt branch from Y_sh (methods.md §3.4, two-line regression
+/// on Z_sh = R + jX): −ωX = 1/C_ox + τ·ω²R and 1/R = 1/R_si + (τ²/R_si)·ω², τ = R_si·C_si.
+/// Falls back to the low-frequency capacitance and a worst-case R_si.
+pub fn shunt_start(f: &[f64], ysh: &[C64]) -> [f64; 3] {
+    let n = f.len();
+    let w: Vec<f64> = f.iter().map(|&x| TAU * x).collect();
+    let z: Vec<C64> = ysh.iter().map(|&y| C64::new(1.0, 0.0) / y).collect();
+    let c_lo = (ysh[0].im / w[0]).abs().max(1e-21);
+    let c_hi = (ysh[n - 1].im / w[n - 1]).abs().max(1e-22);
+    let one = vec![1.0; n];
+    let t1: Vec<f64> = (0..n).map(|i| -w[i] * z[i].im).collect();
+    let u1: Vec<f64> = (0..n).map(|i| w[i] * w[i] * z[i].re).collect();
+    let wt: Vec<f64> = t1.iter().map(|t| 1.0 / (t * t).max(1e-300)).collect();
+    let (mut cox, tau) = match lsq2(&one, &u1, &t1, &wt) {
+        Some((a, b)) if a > 0.0 => (1.0 / a, b),
+        _ => (c_lo, 0.0),
+    };
+    if !(cox.is_finite() && cox > 0.0) {
+        cox = c_lo;
+    }
+    let ok: Vec<usize> = (0..n).filter(|&i| z[i].re > 0.0).collect();
+    let mut rsi = 0.0;
+    if ok.len() >= 2 {
+        let o: Vec<f64> = ok.iter().map(|_| 1.0).collect();
+        let v: Vec<f64> = ok.iter().map(|&i| w[i] * w[i]).collect();
+        let t: Vec<f64> = ok.iter().map(|&i| 1.0 / z[i].re).collect();
+        let wt: Vec<f64> = t.iter().map(|t| 1.0 / (t * t)).collect();
+        if let Some((a, _)) = lsq2(&o, &v, &t, &wt) {
+            if a > 0.0 {
+                rsi = 1.0 / a;
+            }
+        }
+    }
+    let wm = (w[0] * w[n - 1]).sqrt();
+    let csi_series = if c_hi < cox {
+        cox * c_hi / (cox - c_hi)
+    } else {
+        cox
+    };
+    if !(rsi.is_finite() && rsi > 0.0) {
+        rsi = 1.0 / (wm * (cox + csi_series));
+    }
+    let mut csi = tau / rsi;
+    if !(csi.is_finite() && csi > 0.0) {
+        csi = csi_series.min(1e3 * cox).max(1e-6 * cox);
+    }
+    [cox, csi, rsi]
+}
+
+fn rms_rel(mut model: impl FnMut(f64) -> C64, f: &[f64], data: &[C64]) -> f64 {
+    let mut s = 0.0;
+    let mut k = 0usize;
+    for (i, &fi) in f.iter().enumerate() {
+        let d = data[i].norm();
+        if d > 0.0 {
+            s += ((model(fi) - data[i]) / d).norm_sqr();
+            k += 1;
+        }
+    }
+    if k == 0 {
+        f64::INFINITY
+    } else {
+        (s / k as f64).sqrt()
+    }
+}
+
+/// A substrate branch whose impedance is negligible against the oxide's everywhere in
+/// the band (|Z_si|·ωC_ox < 1e-9) is a short: report it as C_ox alone (C_si = R_si = 0)
+/// rather than as the meaningless values the fit wandered to.
+fn tidy_shunt(x: [f64; 3], w_max: f64) -> [f64; 3] {
+    let z_si = 1.0 / C64::new(1.0 / x[2], w_max * x[1]).norm();
+    if z_si * w_max * x[0] < 1e-9 {
+        [x[0], 0.0, 0.0]
+    } else {
+        x
+    }
+}
+
+/// Fit one shunt branch, or none when it is negligible against the series branch.
+fn fit_shunt(solver: &dyn Solver, f: &[f64], ysh: &[C64], ys: &[C64]) -> [f64; 3] {
+    let tiny = ysh
+        .iter()
+        .zip(ys)
+        .all(|(a, b)| a.norm() <= 1e-9 * b.norm() || !a.norm().is_finite());
+    if tiny {
+        return [0.0, 0.0, 0.0];
+    }
+    let x0 = shunt_start(f, ysh);
+    let mut best: Option<([f64; 3], f64)> = None;
+    let consider = |x: Vec<f64>, best: &mut Option<([f64; 3], f64)>| {
+        let x = [x[0], x[1], x[2]];
+        let e = rms_rel(|fi| shunt_y(TAU * fi, x[0], x[1], x[2]), f, ysh);
+        if e.is_finite() && best.is_none_or(|(_, b)| e < b) {
+            *best = Some((x, e));
+        }
+    };
+    if let Ok(x) = solver.solve(&ShuntForm, f, ysh, &x0) {
+        consider(x, &mut best);
+    }
+    // second start for substrates at either resistivity extreme
+    if best.is_none_or(|(_, e)| e > 1e-4) {
+        let wm = TAU * (f[0] * f[f.len() - 1]).sqrt();
+        for rsi in [0.1 / (wm * x0[0]), 10.0 / (wm * x0[0])] {
+            if let Ok(x) = solver.solve(&ShuntForm, f, ysh, &[x0[0], x0[1], rsi]) {
+                consider(x, &mut best);
+            }
+        }
+    }
+    tidy_shunt(best.map(|(x, _)| x).unwrap_or(x0), TAU * f[f.len() - 1])
+}
+
+/// Points of the fitted band: f > 0 and below `f_hi`.
+fn band(freq: &[f64], f_hi: Option<f64>) -> Vec<usize> {
+    (0..freq.len())
+        .filter(|&i| freq[i] > 0.0 && f_hi.is_none_or(|h| freq[i] < h))
+        .collect()
+}
+
+/// Fit the π-model to an inductor view (DESIGN §6.1) over the sweep points below
+/// `f_hi` (the view's SRF; None → the whole sweep).
+///
+/// With the 2×2 Y of a two-port (single-ended or differential drive): the series
+/// branch from −Y12 and each shunt from Y11 + Y12 and Y22 + Y21, separately. With
+/// 1-port data, or a centre-tapped view (whose tap-grounded Y12 is not a coil's
+/// series branch): the whole one-port under the view's drive, port 2 mirroring port 1.
+pub fn fit_view(
+    view: &View,
+    freq: &[f64],
+    f_hi: Option<f64>,
+    solver: &dyn Solver,
+) -> Result<Fitted, String> {
+    let View::Driving {
+        name,
+        y_in,
+        two_port,
+    } = view
+    else {
+        return Err("the π-model fits inductor views only".into());
+    };
+    let drive = Drive::of(*name);
+    let idx = band(&freq[..freq.len().min(y_in.len())], f_hi);
+    if idx.len() < MIN_POINTS {
+        return Err(format!(
+            "too few sweep points below the SRF to fit the π-model ({} < {MIN_POINTS})",
+            idx.len()
+        ));
+    }
+    let f: Vec<f64> = idx.iter().map(|&i| freq[i]).collect();
+    let yin: Vec<C64> = idx.iter().map(|&i| y_in[i]).collect();
+    if yin.iter().any(|y| !(y.re.is_finite() && y.im.is_finite())) {
+        return Err("the input admittance is not finite in the fitted band".into());
+    }
+    let model = match two_port {
+        Some(y2) if *name != ViewName::CentreTapped && y2.len() >= y_in.len() => {
+            let ys: Vec<C64> = idx.iter().map(|&i| -y2[i][1]).collect();
+            let sh1: Vec<C64> = idx.iter().map(|&i| y2[i][0] + y2[i][1]).collect();
+            let sh2: Vec<C64> = idx.iter().map(|&i| y2[i][3] + y2[i][2]).collect();
+            if ys
+                .iter()
+                .chain(&sh1)
+                .chain(&sh2)
+                .any(|y| !y.norm().is_finite())
+            {
+                return Err("the 2-port admittance is not finite in the fitted band".into());
+            }
+            let s0 = series_start(&f, &ys)?;
+            let s = solver.solve(&SeriesForm, &f, &ys, &s0)?;
+            let a = fit_shunt(solver, &f, &sh1, &ys);
+            let b = fit_shunt(solver, &f, &sh2, &ys);
+            PiModel {
+                ls: s[0],
+                rdc: s[1],
+                rac: s[2],
+                cs: s[3],
+                cox1: a[0],
+                csi1: a[1],
+                rsi1: a[2],
+                cox2: b[0],
+                csi2: b[1],
+                rsi2: b[2],
+            }
+        }
+        _ => fit_one_port(solver, &f, &yin, drive)?,
+    };
+    let fit_error = rms_rel(|fi| model.y_drive(fi, drive), &f, &yin);
+    if !fit_error.is_finite() {
+        return Err("the fitted π-model does not reproduce the data (non-finite error)".into());
+    }
+    Ok(Fitted {
+        model,
+        fit_error,
+        points: f.len(),
+    })
+}
+
+/// The shunt C_ox — (R_si ∥ C_si) from its admittance by a linear fit (Levy's method):
+/// Y_sh = jω(a + jωb)/(1 + jωc) with a = C_ox, b = C_ox·τ, c = τ + C_ox·R_si, τ = R_si·C_si
+/// (partial fractions of the branch), so Y_sh(1 + jωc) = jωa − ω²b is linear in
+/// (a, b, c); each equation weighted by `w`. None when the result is not a physical
+/// branch (a ≤ 0); τ and R_si are kept ≥ 0.
+pub fn levy_shunt(f: &[f64], ysh: &[C64], w: &[f64]) -> Option<[f64; 3]> {
+    let n = f.len();
+    let mut m = DMatrix::<f64>::zeros(2 * n, 3);
+    let mut rhs = DVector::<f64>::zeros(2 * n);
+    for i in 0..n {
+        let om = TAU * f[i];
+        let (g, h) = (ysh[i].re, ysh[i].im);
+        let wi = if w[i].is_finite() { w[i] } else { 0.0 };
+        m[(2 * i, 1)] = -om * om * wi;
+        m[(2 * i, 2)] = om * h * wi;
+        rhs[2 * i] = g * wi;
+        m[(2 * i + 1, 0)] = om * wi;
+        m[(2 * i + 1, 2)] = -om * g * wi;
+        rhs[2 * i + 1] = h * wi;
+    }
+    let mut sc = [0.0; 3];
+    for (k, s) in sc.iter_mut().enumerate() {
+        *s = m.column(k).norm();
+        if !(*s > 0.0 && s.is_finite()) {
+            return None;
+        }
+        let inv = 1.0 / *s;
+        m.column_mut(k).scale_mut(inv);
+    }
+    let sol = m.svd(true, true).solve(&rhs, 1e-13).ok()?;
+    let (a, b, c) = (sol[0] / sc[0], sol[1] / sc[1], sol[2] / sc[2]);
+    if !(a > 0.0 && a.is_finite() && b.is_finite() && c.is_finite()) {
+        return None;
+    }
+    let tau = (b / a).max(0.0);
+    let rsi = ((c - tau) / a).max(0.0);
+    let csi = if rsi > 0.0 { tau / rsi } else { 0.0 };
+    Some([a, csi, rsi])
+}
+
+/// Residuals of a problem given as a whole (no per-point form).
+trait Whole {
+    /// residual vector at physical parameters `x`, None where undefined
+    fn residuals(&self, x: &[f64]) -> Option<Vec<f64>>;
+}
+
+/// The one-port seen through its coil alone: x = [ls, rdc, rac]; the shunt follows
+/// from the coil by the regression of [`shunt_start`].
+struct Projected<'a> {
+    f: &'a [f64],
+    yin: &'a [C64],
+}
+
+impl Projected<'_> {
+    fn coil(&self, x: &[f64], i: usize) -> C64 {
+        let fi = self.f[i];
+        C64::new(1.0, 0.0) / C64::new(x[1] + x[2] * (fi / F_REF).sqrt(), TAU * fi * x[0])
+    }
+    fn shunt(&self, x: &[f64]) -> Option<[f64; 3]> {
+        let yp: Vec<C64> = (0..self.f.len())
+            .map(|i| self.yin[i] - self.coil(x, i))
+            .collect();
+        let w: Vec<f64> = self.yin.iter().map(|y| 1.0 / y.norm()).collect();
+        levy_shunt(self.f, &yp, &w)
+    }
+}
+
+impl Whole for Projected<'_> {
+    fn residuals(&self, x: &[f64]) -> Option<Vec<f64>> {
+        let sh = self.shunt(x)?;
+        let mut r = Vec::with_capacity(2 * self.f.len());
+        for i in 0..self.f.len() {
+            let y = self.coil(x, i) + shunt_y(TAU * self.f[i], sh[0], sh[1], sh[2]);
+            let e = (y - self.yin[i]) / self.yin[i].norm();
+            if !(e.re.is_finite() && e.im.is_finite()) {
+                return None;
+            }
+            r.push(e.re);
+            r.push(e.im);
+        }
+        Some(r)
+    }
+}
+
+struct WholeProblem<'a> {
+    whole: &'a dyn Whole,
+    scale: Vec<f64>,
+    p: DVector<f64>,
+    m: usize,
+}
+
+impl WholeProblem<'_> {
+    fn x_of(&self, p: &DVector<f64>) -> Vec<f64> {
+        (0..self.scale.len())
+            .map(|k| self.scale[k] * p[k].clamp(-P_MAX, P_MAX).exp())
+            .collect()
+    }
+}
+
+impl LeastSquaresProblem<f64, Dyn, Dyn> for WholeProblem<'_> {
+    type ResidualStorage = Owned<f64, Dyn>;
+    type JacobianStorage = Owned<f64, Dyn, Dyn>;
+    type ParameterStorage = Owned<f64, Dyn>;
+    fn set_params(&mut self, p: &DVector<f64>) {
+        self.p.copy_from(p);
+    }
+    fn params(&self) -> DVector<f64> {
+        self.p.clone()
+    }
+    fn residuals(&self) -> Option<DVector<f64>> {
+        let r = self.whole.residuals(&self.x_of(&self.p))?;
+        (r.len() == self.m).then(|| DVector::from_vec(r))
+    }
+    fn jacobian(&self) -> Option<DMatrix<f64>> {
+        // forward differences in log space: cheap for three parameters
+        let r0 = self.whole.residuals(&self.x_of(&self.p))?;
+        let mut j = DMatrix::zeros(self.m, self.p.len());
+        for k in 0..self.p.len() {
+            let h = 1e-7;
+            let mut q = self.p.clone();
+            q[k] += h;
+            let r1 = self.whole.residuals(&self.x_of(&q))?;
+            if r1.len() != self.m {
+                return None;
+            }
+            for i in 0..self.m {
+                j[(i, k)] = (r1[i] - r0[i]) / h;
+            }
+        }
+        Some(j)
+    }
+}
+
+/// Levenberg–Marquardt on a [`Whole`] problem from `x0` (every entry > 0); the
+/// parameters where it stopped, or None when it failed.
+fn lm_closure(whole: &dyn Whole, x0: &[f64], m: usize) -> Option<Vec<f64>> {
+    if x0.iter().any(|&v| !(v.is_finite() && v > 0.0)) {
+        return None;
+    }
+    let prob = WholeProblem {
+        whole,
+        scale: x0.to_vec(),
+        p: DVector::zeros(x0.len()),
+        m,
+    };
+    let (prob, report) = LevenbergMarquardt::new()
+        .with_ftol(1e-10)
+        .with_xtol(1e-9)
+        .with_gtol(1e-12)
+        .with_patience(40)
+        .minimize(prob);
+    match report.termination {
+        TerminationReason::User(_)
+        | TerminationReason::Numerical(_)
+        | TerminationReason::WrongDimensions(_) => None,
+        _ => Some(prob.x_of(&prob.p)),
+    }
+}
+
+/// The whole one-port Y_in = Y_ser + Y_sh,eff; under a floating drive the effective
+/// shunt is the two (equal) port shunts in series: C_ox = 2·C_ox,eff, C_si = 2·C_si,eff,
+/// R_si = R_si,eff/2.
+fn fit_one_port(
+    solver: &dyn Solver,
+    f: &[f64],
+    yin: &[C64],
+    drive: Drive,
+) -> Result<PiModel, String> {
+    let n = f.len();
+    let z0 = C64::new(1.0, 0.0) / yin[0];
+    if z0.im.is_nan() || z0.im <= 0.0 {
+        return Err(format!(
+            "not inductor-like: Im Z_in ≤ 0 at the lowest frequency {:.4e} Hz",
+            f[0]
+        ));
+    }
+    // the coil from the lowest points; then the coil alone by least squares, with
+    // the shunt taken each time by the exact regression of `shunt_start` on what the
+    // coil leaves (a projection: three nonlinear unknowns instead of six)
+    // "low" = the bottom fifth of the band in frequency (on any grid), at least 3 points
+    let low = f.partition_point(|&x| x <= 0.2 * f[n - 1]).max(3).min(n);
+    let s: Vec<f64> = f.iter().map(|&x| (x / F_REF).sqrt()).collect();
+    let zin: Vec<C64> = yin[..low].iter().map(|&y| C64::new(1.0, 0.0) / y).collect();
+    let ls0 = z0.im / (TAU * f[0]);
+    let re: Vec<f64> = zin.iter().map(|z| z.re).collect();
+    let (rdc0, rac0) = match lsq2(&vec![1.0; low], &s[..low], &re, &vec![1.0; low]) {
+        Some((a, b)) if a > 0.0 => (a, b.max(1e-3 * a)),
+        _ => (z0.re.max(1e-3 * z0.im), 1e-3 * z0.re.max(1e-3 * z0.im)),
+    };
+    let proj = Projected { f, yin };
+    let coil = lm_closure(&proj, &[ls0, rdc0, rac0], 3 * n).unwrap_or(vec![ls0, rdc0, rac0]);
+    let (ls, rdc, rac) = (coil[0], coil[1], coil[2]);
+    let wmax = TAU * f[n - 1];
+    let sh = match proj.shunt(&coil) {
+        // zeros (a shorted or missing substrate) need a positive start in log space
+        Some([cox, csi, rsi]) => [cox, csi.max(1e-6 * cox), rsi.max(1e-6 / (wmax * cox))],
+        None => {
+            let c = (yin[n - 1] - proj.coil(&coil, n - 1)).im / wmax;
+            let c = if c > 0.0 { c } else { 1e-15 };
+            [c, c, 1.0 / (wmax * c)]
+        }
+    };
+    if !(ls > 0.0 && ls.is_finite() && rdc > 0.0 && rdc.is_finite()) {
+        return Err("not inductor-like: the coil's L or R comes out ≤ 0".into());
+    }
+    let x0 = [ls, rdc, rac.max(1e-3 * rdc), sh[0], sh[1], sh[2]];
+    let wm = TAU * (f[0] * f[n - 1]).sqrt();
+    let mut best: Option<(Vec<f64>, f64)> = None;
+    // the regression start, then the two resistivity extremes if that one is poor
+    let r0 = 1.0 / (wm * sh[0]);
+    for rsi in [sh[2], 0.1 * r0, 10.0 * r0, 1e-3 * r0, 1e2 * r0] {
+        let mut x0 = x0;
+        x0[5] = rsi;
+        if let Ok(x) = solver.solve(&OnePortForm, f, yin, &x0) {
+            let mut g = [C64::new(0.0, 0.0); 6];
+            let e = rms_rel(|fi| OnePortForm.eval(&x, fi, &mut g), f, yin);
+            if e.is_finite() && best.as_ref().is_none_or(|(_, b)| e < *b) {
+                best = Some((x, e));
+            }
+        }
+        if best.as_ref().is_some_and(|(_, e)| *e < 1e-4) {
+            break;
+        }
+    }
+    let (x, _) =
+        best.ok_or_else(|| "the π-model fit of the one-port did not converge".to_string())?;
+    let t = tidy_shunt([x[3], x[4], x[5]], TAU * f[n - 1]);
+    let x = [x[0], x[1], x[2], t[0], t[1], t[2]];
+    let (cox, csi, rsi) = match drive {
+        Drive::Grounded => (x[3], x[4], x[5]),
+        Drive::Floating => (2.0 * x[3], 2.0 * x[4], x[5] / 2.0),
+    };
+    Ok(PiModel {
+        ls: x[0],
+        rdc: x[1],
+        rac: x[2],
+        cs: 0.0,
+        cox1: cox,
+        csi1: csi,
+        rsi1: rsi,
+        cox2: cox,
+        csi2: csi,
+        rsi2: rsi,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn gradients_match_finite_differences() {
+        // the analytic Jacobian against central differences (self-consistency)
+        let x = [2e-9, 3.0, 1.0, 150e-15, 40e-15, 500.0];
+        let f = 3.7e9;
+        let mut g = [C64::new(0.0, 0.0); 6];
+        OnePortForm.eval(&x, f, &mut g);
+        for k in 0..6 {
+            let h = x[k] * 1e-6;
+            let (mut xp, mut xm) = (x, x);
+            xp[k] += h;
+            xm[k] -= h;
+            let mut tmp = [C64::new(0.0, 0.0); 6];
+            let d = (OnePortForm.eval(&xp, f, &mut tmp) - OnePortForm.eval(&xm, f, &mut tmp))
+                / (2.0 * h);
+            assert!(
+                (d - g[k]).norm() <= 1e-6 * d.norm().max(g[k].norm()) + 1e-30,
+                "k {k}: {d} vs {}",
+                g[k]
+            );
+        }
+    }
+
+    #[test]
+    fn lsq2_recovers_a_line() {
+        let u = [1.0, 1.0, 1.0, 1.0];
+        let v = [1e20, 2e20, 3e20, 5e20];
+        let t: Vec<f64> = v.iter().map(|x| 2.0 + 3e-20 * x).collect();
+        let (a, b) = lsq2(&u, &v, &t, &[1.0; 4]).expect("solvable");
+        assert!((a - 2.0).abs() < 1e-12 && (b - 3e-20).abs() < 1e-30);
+    }
+}
