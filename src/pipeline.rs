@@ -8,11 +8,12 @@
 //! judged independently and collected in path order.
 
 use std::panic::{catch_unwind, AssertUnwindSafe};
-use std::path::PathBuf;
+use std::path::{Path, PathBuf};
 use std::time::{Instant, SystemTime, UNIX_EPOCH};
 
 use rayon::prelude::*;
 
+use crate::baseline::{self, Baseline, Cache, Judged, Measure};
 use crate::figures::{self, DataChecks, Kind, ViewFigures};
 use crate::library::{self, PartFile, WalkError, WalkOptions};
 use crate::network::{self, Network, PortMap, ViewName};
@@ -97,9 +98,9 @@ pub enum RunError {
         /// why not
         message: String,
     },
-    /// an option this build cannot honour yet
-    #[error("{0} is not available in this build")]
-    NotAvailable(&'static str),
+    /// the baseline cannot be used
+    #[error(transparent)]
+    Baseline(#[from] baseline::BaselineError),
 }
 
 /// A run's report and the walk's notes (skipped links, FIFOs) for the user.
@@ -116,21 +117,26 @@ pub fn run(opts: &RunOptions) -> Result<RunReport, RunError> {
     run_with(opts, &NoProgress).map(|o| o.report)
 }
 
-/// Run a check: load the rules, walk the library, judge every part (in parallel on
-/// `opts.jobs` threads) and sum up.
-pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, RunError> {
+/// Every part of a library judged (through the cache), before any baseline.
+pub struct Judging {
+    /// the rules the parts were judged by
+    pub rules: RuleSet,
+    /// one per part of the run (the shard's parts with `--shard`), sorted by path
+    pub judged: Vec<Judged>,
+    /// the walk's and the cache's notes for the user
+    pub notes: Vec<String>,
+    started: SystemTime,
+    clock: Instant,
+}
+
+/// Load the rules, walk the library, take the shard's share, and judge every part
+/// (in parallel on `opts.jobs` threads, through the content-hash cache unless it is
+/// off). `opts.baseline` is not used here.
+pub fn judge_library(opts: &RunOptions, progress: &dyn Progress) -> Result<Judging, RunError> {
     let started = SystemTime::now();
     let clock = Instant::now();
     if opts.rules.is_empty() {
         return Err(RunError::NoRules);
-    }
-    if opts.baseline.is_some() {
-        return Err(RunError::NotAvailable(
-            "comparing against a baseline (--baseline)",
-        ));
-    }
-    if opts.shard.is_some() {
-        return Err(RunError::NotAvailable("sharding (--shard)"));
     }
     let rules = rules::load(&opts.rules)?;
     let walk = library::walk(
@@ -142,19 +148,39 @@ pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, R
     if walk.parts.is_empty() {
         return Err(RunError::Empty(opts.library.to_string_lossy().into_owned()));
     }
-    progress.begin(walk.parts.len());
+    let parts: Vec<&PartFile> = match opts.shard {
+        Some(shard) => walk
+            .parts
+            .iter()
+            .filter(|p| baseline::in_shard(&p.rel, shard))
+            .collect(),
+        None => walk.parts.iter().collect(),
+    };
+    let cache = match &opts.cache {
+        CacheChoice::Off => None,
+        CacheChoice::Default => Some(Cache::new(
+            Cache::default_dir(&opts.library),
+            &rules.infos(),
+            opts.strict,
+        )),
+        CacheChoice::Dir(d) => Some(Cache::new(d.clone(), &rules.infos(), opts.strict)),
+    };
+    progress.begin(parts.len());
 
-    let judge_all = || -> Vec<PartReport> {
-        walk.parts
+    let judge_all = || -> Vec<(Judged, Vec<String>)> {
+        parts
             .par_iter()
             .map(|part| {
-                let r = judge_part_guarded(part, &rules, opts.strict);
+                let mut notes = Vec::new();
+                let j = baseline::cache::judge(cache.as_ref(), part, &mut notes, || {
+                    judge_part_guarded(part, &rules, opts.strict)
+                });
                 progress.part_done(&part.rel);
-                r
+                (j, notes)
             })
             .collect()
     };
-    let parts = match opts.jobs {
+    let done = match opts.jobs {
         None => judge_all(),
         Some(jobs) => rayon::ThreadPoolBuilder::new()
             .num_threads(jobs)
@@ -165,18 +191,62 @@ pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, R
             })?
             .install(judge_all),
     };
+    let mut notes = walk.notes.clone();
+    let mut judged = Vec::with_capacity(done.len());
+    for (j, n) in done {
+        notes.extend(n);
+        judged.push(j);
+    }
+    Ok(Judging {
+        rules,
+        judged,
+        notes,
+        started,
+        clock,
+    })
+}
 
-    let computed = parts.len();
+/// Run a check: judge the library (see [`judge_library`]), compare with the
+/// baseline if one is given, and sum up.
+pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, RunError> {
+    // a baseline that cannot be used is found before any part is judged
+    let base = opts.baseline.as_deref().map(Baseline::load).transpose()?;
+    let Judging {
+        rules,
+        judged,
+        notes,
+        started,
+        clock,
+    } = judge_library(opts, progress)?;
+    let infos = rules.infos();
+    let cached = judged.iter().filter(|j| j.cached).count();
+    let computed = judged.len() - cached;
+    let (parts, rules_changed) = match &base {
+        None => (
+            judged.into_iter().map(|j| j.report).collect::<Vec<_>>(),
+            Vec::new(),
+        ),
+        Some(b) => (
+            baseline::apply(judged, b, opts.shard, opts.strict, |m, before| {
+                compare_drift(&rules, m, before)
+            }),
+            baseline::rules_changed(&infos, b),
+        ),
+    };
     let mut summary = summarise(&parts);
     summary.computed = computed;
+    summary.cached = cached;
     let report = RunReport {
         format: REPORT_FORMAT.to_string(),
         tool_version: crate::TOOL_VERSION.to_string(),
         library: opts.library.to_string_lossy().into_owned(),
-        rules: rules.infos(),
-        baseline: None,
-        rules_changed: Vec::new(),
-        shard: None,
+        rules: infos,
+        baseline: opts
+            .baseline
+            .as_ref()
+            .map(|p| p.to_string_lossy().into_owned()),
+        rules_changed,
+        shard: opts.shard,
         strict: opts.strict,
         passed: passed(&parts),
         summary,
@@ -186,10 +256,67 @@ pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, R
             seconds: clock.elapsed().as_secs_f64(),
         },
     };
-    Ok(Outcome {
-        report,
-        notes: walk.notes,
+    Ok(Outcome { report, notes })
+}
+
+/// What `lcgate record` did.
+#[derive(Debug, Clone)]
+pub struct Recorded {
+    /// the baseline written
+    pub baseline: Baseline,
+    /// notes for the user
+    pub notes: Vec<String>,
+}
+
+/// `lcgate record`: judge the library and write today's figures and drift
+/// quantities to `output` as the baseline (crash-safely).
+pub fn record(
+    opts: &RunOptions,
+    output: &Path,
+    progress: &dyn Progress,
+) -> Result<Recorded, RecordError> {
+    let j = judge_library(opts, progress)?;
+    let b = Baseline::from_judged(&opts.library.to_string_lossy(), j.rules.infos(), &j.judged);
+    b.save(output).map_err(|source| RecordError::Write {
+        path: output.to_string_lossy().into_owned(),
+        source,
+    })?;
+    Ok(Recorded {
+        baseline: b,
+        notes: j.notes,
     })
+}
+
+/// `lcgate record` could not be made.
+#[derive(Debug, thiserror::Error)]
+pub enum RecordError {
+    /// the run could not be made
+    #[error(transparent)]
+    Run(#[from] RunError),
+    /// the baseline cannot be written
+    #[error("cannot write the baseline `{path}`: {source}")]
+    Write {
+        /// the file
+        path: String,
+        /// why
+        #[source]
+        source: std::io::Error,
+    },
+}
+
+/// The drift outcome of one measured quantity: the limit of the rules file that
+/// named it.
+fn compare_drift(
+    rules: &RuleSet,
+    m: &Measure,
+    before: Option<f64>,
+) -> Option<crate::verdict::DriftOutcome> {
+    let file = rules
+        .files
+        .iter()
+        .find(|f| f.path.to_string_lossy() == m.rules_file)?;
+    let rule = file.drift.iter().find(|d| d.quantity == m.quantity)?;
+    Some(rule.compare(before, m.now))
 }
 
 /// The view judged when a rule group names none: the one the port count suggests
@@ -255,7 +382,11 @@ pub fn passed(parts: &[PartReport]) -> bool {
 
 /// [`judge_part`], with a panic (a bug) turned into a failing part so one bad part
 /// cannot take the nightly run down with it.
-fn judge_part_guarded(part: &PartFile, rules: &RuleSet, strict: bool) -> PartReport {
+fn judge_part_guarded(
+    part: &PartFile,
+    rules: &RuleSet,
+    strict: bool,
+) -> (PartReport, Vec<Measure>) {
     match catch_unwind(AssertUnwindSafe(|| judge_part(part, rules, strict))) {
         Ok(r) => r,
         Err(payload) => {
@@ -268,7 +399,7 @@ fn judge_part_guarded(part: &PartFile, rules: &RuleSet, strict: bool) -> PartRep
             r.error = Some(format!(
                 "internal error (a bug) while judging this part: {what}"
             ));
-            r
+            (r, Vec::new())
         }
     }
 }
@@ -317,19 +448,20 @@ impl<'n> FigureCache<'n> {
 }
 
 /// Judge one part: read it, take the view each matching rule group asks for, compute
-/// the figures, evaluate the checks. The network is dropped on return.
-pub fn judge_part(part: &PartFile, rules: &RuleSet, strict: bool) -> PartReport {
+/// the figures, evaluate the checks, measure the drift quantities of the rules files
+/// that select it. The network is dropped on return.
+pub fn judge_part(part: &PartFile, rules: &RuleSet, strict: bool) -> (PartReport, Vec<Measure>) {
     if let Some(e) = &part.error {
         let mut r = bare(part, PartStatus::Unreadable);
         r.error = Some(e.clone());
-        return r;
+        return (r, Vec::new());
     }
     let net = match crate::touchstone::read_path(&part.path) {
         Ok(ts) => ts.network,
         Err(e) => {
             let mut r = bare(part, PartStatus::Unreadable);
             r.error = Some(e.to_string());
-            return r;
+            return (r, Vec::new());
         }
     };
     let data = figures::data_checks(&net);
@@ -351,6 +483,7 @@ pub fn judge_part(part: &PartFile, rules: &RuleSet, strict: bool) -> PartReport 
         done: Vec::new(),
     };
     let mut checks: Vec<CheckOutcome> = Vec::new();
+    let mut measures: Vec<Measure> = Vec::new();
     // (index into the cache, band) of the first group that could be judged
     let mut judged: Option<(usize, Option<rules::Band>)> = None;
 
@@ -385,6 +518,9 @@ pub fn judge_part(part: &PartFile, rules: &RuleSet, strict: bool) -> PartReport 
             };
             for check in &group.checks {
                 checks.push(check.evaluate(&ctx, &label));
+            }
+            for d in &file.drift {
+                baseline::add_measure(&mut measures, &label, &d.quantity, || d.measure(&ctx));
             }
             if judged.is_none() {
                 judged = Some((i, resolved.band));
@@ -431,7 +567,7 @@ pub fn judge_part(part: &PartFile, rules: &RuleSet, strict: bool) -> PartReport 
             Err(_) => {}
         }
     }
-    r
+    (r, measures)
 }
 
 /// The data checks as named figures (DESIGN §6), non-finite values as null.

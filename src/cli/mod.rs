@@ -323,15 +323,29 @@ fn check(a: &CheckArgs) -> Result<u8, Fatal> {
 }
 
 fn record(a: &RecordArgs) -> Result<u8, Fatal> {
-    // resolve the defaults first so that a wrong path is reported as such
-    let _ = (
-        library_or_default(&a.library)?,
-        rules_or_default(&a.walk.rules)?,
-    );
-    Err(Fatal(format!(
-        "`record` is not available in this build (would write `{}`)",
+    let opts = RunOptions {
+        library: library_or_default(&a.library)?,
+        rules: rules_or_default(&a.walk.rules)?,
+        jobs: a.walk.jobs,
+        follow_links: a.walk.follow_links,
+        ..RunOptions::default()
+    };
+    let bar = Bar::new(a.walk.quiet);
+    let done = pipeline::record(&opts, &a.output, &bar);
+    bar.0.finish_and_clear();
+    let done = done?;
+    if !a.walk.quiet {
+        for n in &done.notes {
+            eprintln!("lcgate: note: {n}");
+        }
+    }
+    print_out(&format!(
+        "recorded {} parts of `{}` as the baseline `{}`\n",
+        done.baseline.parts.len(),
+        opts.library.display(),
         a.output.display()
-    )))
+    ))?;
+    Ok(EXIT_PASS)
 }
 
 fn merge(a: &MergeArgs) -> Result<u8, Fatal> {
