@@ -394,7 +394,7 @@ fn loss_lines(figs: &ViewFigures) -> String {
         Some(Ok(story)) => {
             let p = &story.model;
             let mut out = format!(
-                "  π-model: Ls {}, Rdc {}, Rac {}, Cs {}, Cox {}/{}, Csi {}/{}, Rsi {}/{}; fit error {}%\n",
+                "  π-model: Ls {}, Rdc {}, Rac {}, Cs {}, Cox {}/{}, Csi {}/{}, Rsi {}/{}; fit error {}\n",
                 eng(p.ls, "H"),
                 eng(p.rdc, "Ω"),
                 eng(p.rac, "Ω"),
@@ -405,7 +405,7 @@ fn loss_lines(figs: &ViewFigures) -> String {
                 eng(p.csi2, "F"),
                 eng(p.rsi1, "Ω"),
                 eng(p.rsi2, "Ω"),
-                sig3(100.0 * story.fit_error),
+                percent(story.fit_error),
             );
             let bands: Vec<String> = story
                 .loss_bands
@@ -422,19 +422,23 @@ fn loss_lines(figs: &ViewFigures) -> String {
             if !bands.is_empty() {
                 out.push_str(&format!("  loss: {}\n", bands.join("; ")));
             }
-            let verdict = match (story.q_drop_cause, figs.scalar("f_q_half")) {
-                (Some(m), Some(f)) => format!(
-                    "  Q falls because of {} (at {}, where Q is half its peak)\n",
-                    m.as_str(),
-                    eng(f, "Hz")
-                ),
-                _ => "  Q does not fall to half its peak inside the sweep\n".to_string(),
-            };
+            let verdict = crate::model::verdict_line(figs)
+                .map(|v| format!("  {v}\n"))
+                .unwrap_or_default();
             out.push_str(&verdict);
             out
         }
         Some(Err(e)) => format!("  π-model: not fitted: {e}\n"),
         None => String::new(),
+    }
+}
+
+/// A small ratio as a percentage, without printing noise digits.
+fn percent(x: f64) -> String {
+    if x.abs() < 1e-6 {
+        "< 0.0001%".to_string()
+    } else {
+        format!("{}%", sig3(100.0 * x))
     }
 }
 
@@ -461,6 +465,14 @@ fn render_rows(rows: &[Vec<String>]) -> String {
         out.push('\n');
     }
     out
+}
+
+/// Run `lcgate inspect` on the file named in `args`; returns the exit status (0, or
+/// 2 with the error, `path:line:column: message` for a bad file, on stderr).
+pub fn run(args: &InspectArgs) -> u8 {
+    run_with(args, |p| {
+        crate::touchstone::read_path(p).map_err(|e| e.to_string())
+    })
 }
 
 /// Run `lcgate inspect` with `load` reading the file; returns the exit status (0,

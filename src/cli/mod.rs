@@ -38,7 +38,7 @@ pub struct Cli {
 pub enum Command {
     /// Judge every part of a library against the rules and report pass/fail.
     Check(CheckArgs),
-    /// Show every figure of every view of one Touchstone file.
+    /// Print every figure of every view of one Touchstone file.
     Inspect(inspect::InspectArgs),
     /// Accept today's figures as the baseline for later drift checks.
     Record(RecordArgs),
@@ -188,9 +188,7 @@ pub fn run_args(args: Vec<std::ffi::OsString>) -> u8 {
     };
     let result = match cli.command {
         Command::Check(a) => check(&a),
-        Command::Inspect(a) => Ok(inspect::run_with(&a, |p| {
-            crate::touchstone::read_path(p).map_err(|e| e.to_string())
-        })),
+        Command::Inspect(a) => Ok(inspect::run(&a)),
         Command::Record(a) => record(&a),
         Command::Merge(a) => merge(&a),
         Command::Validate(a) => validate(&a),

@@ -124,3 +124,56 @@ pub struct DataChecks {
     /// number of ports
     pub ports: usize,
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn figs() -> ViewFigures {
+        let mut curves = BTreeMap::new();
+        curves.insert("q".to_string(), vec![Some(1.0), Some(3.0), Some(2.0), None]);
+        curves.insert(
+            "substrate_factor".to_string(),
+            vec![Some(1.0), Some(0.95), Some(0.5), Some(0.5)],
+        );
+        curves.insert(
+            "resonance_factor".to_string(),
+            vec![Some(1.0), Some(0.99), Some(0.8), Some(-0.1)],
+        );
+        ViewFigures {
+            view: ViewName::SingleEnded,
+            kind: Kind::Inductor,
+            freq: vec![1e9, 2e9, 3e9, 4e9],
+            scalars: BTreeMap::from([("srf".to_string(), None), ("q_peak".to_string(), Some(3.0))]),
+            curves,
+            loss: None,
+        }
+    }
+
+    #[test]
+    fn curve_points_include_edges() {
+        let f = figs();
+        let pts = f.curve_points("q", 1.5e9, 3e9);
+        assert_eq!(
+            pts,
+            vec![(1.5e9, Some(2.0)), (2e9, Some(3.0)), (3e9, Some(2.0))]
+        );
+        // outside the sweep the edge is unknown, which a band check must not pass
+        let pts = f.curve_points("q", 0.5e9, 1e9);
+        assert_eq!(pts, vec![(0.5e9, None), (1e9, Some(1.0))]);
+        assert!(f.curve_points("nope", 1e9, 2e9).is_empty());
+        assert_eq!(f.curve_at("q", 3.5e9), None);
+        assert_eq!(f.scalar("srf"), None);
+        assert_eq!(f.scalar("q_peak"), Some(3.0));
+    }
+
+    #[test]
+    fn mechanism_follows_design_rule() {
+        // DESIGN §6.1: conductor when sf·rf ≥ 0.9, else the smaller factor, resonance if rf ≤ 0
+        let f = figs();
+        assert_eq!(f.mechanism_at(1e9), Some(Mechanism::Conductor));
+        assert_eq!(f.mechanism_at(3e9), Some(Mechanism::Substrate));
+        assert_eq!(f.mechanism_at(4e9), Some(Mechanism::Resonance));
+        assert_eq!(f.mechanism_at(5e9), None);
+    }
+}
