@@ -314,7 +314,7 @@ fn compare_drift(
     let file = rules
         .files
         .iter()
-        .find(|f| f.path.to_string_lossy() == m.rules_file)?;
+        .find(|f| f.path == m.rules_file)?;
     let rule = file.drift.iter().find(|d| d.quantity == m.quantity)?;
     Some(rule.compare(before, m.now))
 }
@@ -493,7 +493,7 @@ pub fn judge_part(part: &PartFile, rules: &RuleSet, strict: bool) -> (PartReport
     }
     if errors.is_empty() {
         for (file, group) in &groups {
-            let label = file.path.to_string_lossy().into_owned();
+            let label = file.path.clone();
             let resolved = match group.resolve(file_name, sidecar.as_ref()) {
                 Ok(r) => r,
                 Err(msg) => {
