@@ -8,6 +8,7 @@
 use std::collections::BTreeSet;
 
 use super::{in_shard, Baseline, Judged, Measure};
+use crate::units;
 use crate::verdict::{CheckStatus, DriftOutcome, PartReport, PartStatus, RulesFileInfo};
 
 /// The reports of a run judged against `baseline`, sorted by path: drift outcomes
@@ -92,6 +93,51 @@ pub fn rules_changed(now: &[RulesFileInfo], baseline: &Baseline) -> Vec<String> 
         .map(|(p, _)| p.to_string())
         .collect();
     changed.into_iter().collect()
+}
+
+/// One quantity of one part that moved since the baseline.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Move<'a> {
+    /// the part
+    pub path: &'a str,
+    /// the comparison
+    pub drift: &'a DriftOutcome,
+    /// |change| as a fraction of the limit (1.0 = at the limit); None when the limit
+    /// or the change is not a number
+    pub of_limit: Option<f64>,
+}
+
+/// Every drift that moved (a change other than zero, or an outcome other than pass),
+/// largest first: by the share of its limit used, failures first among equals, then
+/// by path and quantity. This is the order of a "changed since baseline" section.
+pub fn moves(parts: &[PartReport]) -> Vec<Move<'_>> {
+    let mut out: Vec<Move> = parts
+        .iter()
+        .flat_map(|p| p.drift.iter().map(move |d| (p.path.as_str(), d)))
+        .filter(|(_, d)| d.status != CheckStatus::Pass || d.change.is_some_and(|c| c != 0.0))
+        .map(|(path, d)| {
+            let limit = units::parse_quantity(&d.limit).ok().map(|(v, _)| v.abs());
+            let of_limit = match (d.change, limit) {
+                (Some(c), Some(l)) if l > 0.0 => Some(c.abs() / l),
+                _ => None,
+            };
+            Move {
+                path,
+                drift: d,
+                of_limit,
+            }
+        })
+        .collect();
+    out.sort_by(|a, b| {
+        let failed = |m: &Move| m.drift.status == CheckStatus::Pass;
+        b.of_limit
+            .unwrap_or(f64::INFINITY)
+            .total_cmp(&a.of_limit.unwrap_or(f64::INFINITY))
+            .then(failed(a).cmp(&failed(b)))
+            .then(a.path.cmp(b.path))
+            .then(a.drift.quantity.cmp(&b.drift.quantity))
+    });
+    out
 }
 
 #[cfg(test)]
@@ -213,6 +259,28 @@ mod tests {
             missing += parts.len();
         }
         assert_eq!(missing, 30);
+    }
+
+    #[test]
+    fn largest_moves_first() {
+        let base = baseline(&["a.s2p", "b.s2p", "c.s2p", "d.s2p"]);
+        let now = vec![
+            judged("a.s2p", 1.005e-9),
+            judged("b.s2p", 0.97e-9),
+            judged("c.s2p", 1.0e-9),
+            judged("d.s2p", 1.002e-9),
+        ];
+        let parts = apply(now, &base, None, false, one_percent);
+        let m = moves(&parts);
+        let order: Vec<&str> = m.iter().map(|m| m.path).collect();
+        assert_eq!(
+            order,
+            ["b.s2p", "a.s2p", "d.s2p"],
+            "unchanged c is left out"
+        );
+        let share = m[0].of_limit.unwrap();
+        assert!((share - 3.0).abs() < 1e-9, "{share}");
+        assert!(m[0].drift.status == CheckStatus::Fail);
     }
 
     #[test]

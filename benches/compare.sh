@@ -1,0 +1,71 @@
+#!/usr/bin/env bash
+# Side-by-side performance comparison, all in one run (absolute times drift on shared
+# machines; the ratios are what the targets are stated in).
+#
+#   benches/compare.sh [PARTS] [BIG_POINTS]      (defaults: 2000 and 60000)
+#
+# Prints, with the targets of the performance issue:
+#   1. full `lcgate check` of PARTS 300-point 2-ports vs scikit-rf doing only
+#      read + Y + L/Q/SRF/peak Q on the same files (target ≥ 20×);
+#   2. `lcgate inspect` MB/s on one large 4-port (target ≥ 300 MB/s) and the reader
+#      alone vs the best bare float parsing of the same file (target ≥ 30 %);
+#   3. peak memory of a PARTS run vs a PARTS/10 run (target ≤ 1.5×), and of the large
+#      file vs its in-memory matrix size (target < 3×);
+#   4. warm cached rerun vs cold run (target ≥ 50×).
+set -euo pipefail
+cd "$(dirname "$0")/.."
+parts=${1:-2000}
+big=${2:-60000}
+small=$((parts / 10))
+work=${LCGATE_BENCH_DIR:-target/perf}
+py=${LCGATE_PYTHON:-$PWD/.venv/bin/python}
+[ -x "$py" ] || { echo "no Python venv with scikit-rf: run scripts/test once (or set LCGATE_PYTHON)"; exit 2; }
+
+cargo build --release --quiet --bin lcgate --example make-perf-data --example float-ceiling
+bin=target/release/lcgate
+rm -rf "$work" && mkdir -p "$work"
+target/release/examples/make-perf-data "$work/full" "$parts" "$big"
+target/release/examples/make-perf-data "$work/small" "$small"
+
+now() { date +%s.%N; }
+peak_kb() { awk '/Maximum resident set size/ {print $6}' "$1"; }
+ratio() { python3 -c "print(f'{$1/$2:.1f}')"; }
+
+# 1. full check vs scikit-rf
+t0=$(now)
+/usr/bin/time -v "$bin" check "$work/full/lib" --rules "$work/full/rules" --no-cache --quiet \
+  --report "$work/out-full" >/dev/null 2>"$work/time-full.txt" || true
+t1=$(now)
+lc=$(python3 -c "print($t1-$t0)")
+sk=$("$py" benches/skrf_equiv.py "$work/full/lib" | sed 's/.*seconds=//')
+echo "check of $parts parts: lcgate ${lc}s, scikit-rf (read+Y+L/Q/SRF/peak Q only) ${sk}s → $(ratio "$sk" "$lc")× (target ≥ 20×)"
+
+# 2. large file throughput
+size=$(stat -c %s "$work/full/big.s4p")
+t0=$(now)
+/usr/bin/time -v "$bin" inspect "$work/full/big.s4p" --json >/dev/null 2>"$work/time-big.txt"
+t1=$(now)
+mbs=$(python3 -c "print(f'{$size/1e6/($t1-$t0):.0f}')")
+echo "inspect of a $((size / 1000000)) MB 4-port: ${mbs} MB/s end to end (target ≥ 300 MB/s)"
+target/release/examples/float-ceiling "$work/full/big.s4p"
+
+# 3. memory
+pf=$(peak_kb "$work/time-full.txt")
+/usr/bin/time -v "$bin" check "$work/small/lib" --rules "$work/small/rules" --no-cache --quiet \
+  >/dev/null 2>"$work/time-small.txt" || true
+ps=$(peak_kb "$work/time-small.txt")
+echo "peak memory: $parts parts ${pf} kB, $small parts ${ps} kB → $(ratio "$pf" "$ps")× (target ≤ 1.5×)"
+pb=$(peak_kb "$work/time-big.txt")
+matrix_kb=$((big * 16 * 16 / 1024))
+echo "peak memory of the large file: ${pb} kB vs S matrix ${matrix_kb} kB → $(ratio "$pb" "$matrix_kb")× (target < 3×)"
+
+# 4. warm cache
+rm -rf "$work/cache"
+t0=$(now)
+"$bin" check "$work/full/lib" --rules "$work/full/rules" --cache "$work/cache" --quiet >/dev/null || true
+t1=$(now)
+"$bin" check "$work/full/lib" --rules "$work/full/rules" --cache "$work/cache" --quiet >/dev/null || true
+t2=$(now)
+cold=$(python3 -c "print($t1-$t0)")
+warm=$(python3 -c "print($t2-$t1)")
+echo "cold run ${cold}s, warm cached rerun ${warm}s → $(ratio "$cold" "$warm")× (target ≥ 50×)"
