@@ -1190,7 +1190,7 @@ fn all_parts(variant: Variant) -> Vec<Part> {
             3.55e9,
             oct(3.0, 10.0, 2.0),
             UTM_NAME,
-            true,
+            false,
             RF_GRID,
             FIELDSOLVE,
             Drive::SingleEnded,

@@ -12,7 +12,9 @@ use crate::units;
 use crate::verdict::{CheckStatus, DriftOutcome, PartReport, PartStatus, RulesFileInfo};
 
 /// The reports of a run judged against `baseline`, sorted by path: drift outcomes
-/// filled in (a drift that does not pass fails its part), parts not in the baseline
+/// filled in (a drift that does not pass fails its part; a quantity undefined both
+/// then and now passes; one the baseline does not hold is not compared), parts not in
+/// the baseline
 /// marked `new` (they fail only with `strict`), and a `missing` report for every part
 /// of the baseline that is no longer in the library. In a sharded run only the
 /// baseline's parts of the same shard can be missing.
@@ -40,10 +42,21 @@ pub fn apply(
                 }
                 Some(base) => {
                     for m in &j.measures {
-                        let before = base.drift.get(&m.quantity).copied().flatten();
-                        if let Some(outcome) = compare(m, before) {
-                            r.drift.push(outcome);
+                        // a quantity named after the baseline was recorded has nothing
+                        // to be compared with (the changed rules are named in the
+                        // report header)
+                        let Some(&before) = base.drift.get(&m.quantity) else {
+                            continue;
+                        };
+                        let Some(mut outcome) = compare(m, before) else {
+                            continue;
+                        };
+                        // undefined then and undefined now (an srf above the sweep
+                        // both times): nothing moved
+                        if before.is_none() && m.now.is_none() {
+                            outcome.status = CheckStatus::Pass;
                         }
+                        r.drift.push(outcome);
                     }
                     let drifted = r.drift.iter().any(|d| d.status != CheckStatus::Pass);
                     if drifted && matches!(r.status, PartStatus::Pass | PartStatus::Unchecked) {
@@ -223,6 +236,35 @@ mod tests {
         assert!(parts[2].drift.is_empty());
         assert_eq!(parts[3].status, PartStatus::Missing);
         assert!(parts[3].error.as_deref().unwrap().contains("no longer"));
+    }
+
+    #[test]
+    fn undefined_then_and_now_has_not_moved() {
+        let mut base = baseline(&["a.s2p", "b.s2p"]);
+        base.parts[0].drift.insert("srf".into(), None);
+        let mut a = judged("a.s2p", 1e-9);
+        let mut b = judged("b.s2p", 1e-9);
+        for j in [&mut a, &mut b] {
+            j.measures.push(Measure {
+                rules_file: "r.yaml".into(),
+                quantity: "srf".into(),
+                now: None,
+            });
+        }
+        let parts = apply(vec![a, b], &base, None, false, one_percent);
+        // a: recorded as undefined and still undefined
+        let srf = parts[0].drift.iter().find(|d| d.quantity == "srf").unwrap();
+        assert_eq!(srf.status, CheckStatus::Pass);
+        assert_eq!(parts[0].status, PartStatus::Pass);
+        // b: the baseline predates the quantity: not compared
+        assert_eq!(parts[1].drift.len(), 1);
+        assert_eq!(parts[1].status, PartStatus::Pass);
+        // defined then, undefined now: undecided, fails
+        let mut c = judged("a.s2p", 1e-9);
+        c.measures[0].now = None;
+        let parts = apply(vec![c], &base, None, false, one_percent);
+        assert_eq!(parts[0].drift[0].status, CheckStatus::Undecided);
+        assert_eq!(parts[0].status, PartStatus::Fail);
     }
 
     #[test]
