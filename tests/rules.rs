@@ -563,6 +563,18 @@ fn yaml_mistakes_are_located() {
     assert!(e.contains("bad glob"), "{e}");
     let e = err_text("parts:\n  - select: x\n    windings: [[1, 2], [2, 3]]\n");
     assert!(e.contains("share a port"), "{e}");
+    let ok = load_text(
+        "parts:\n  - select: x\n    kind: transformer\n    ports: { windings: [[1, 3], [2, 4]] }\n",
+    )
+    .unwrap();
+    assert_eq!(ok.files[0].groups[0].ports.windings, [[1, 3], [2, 4]]);
+    let ok =
+        load_text("parts:\n  - select: x\n    windings: [[1, 4], [2, 3]]\n    ports: { tap: 2 }\n")
+            .unwrap();
+    assert_eq!(ok.files[0].groups[0].ports.windings, [[1, 4], [2, 3]]);
+    assert_eq!(ok.files[0].groups[0].ports.tap, 2);
+    let e = err_text("parts:\n  - select: x\n    ports: { tapp: 2 }\n");
+    assert!(e.contains("did you mean `tap`?"), "{e}");
     let e = err_text("parts:\n  - select: x\n    kind: capacitor\n    view: transformer\n");
     assert!(e.contains("transformer"), "{e}");
     let e = err_text("parts:\n  - select: x\n    band: 5\n");
@@ -675,4 +687,14 @@ fn hostile_rules_files_get_clear_errors_fast() {
         ));
     }
     quick("many", || load_text(&many).unwrap());
+}
+
+#[test]
+fn the_project_rules_folder_validates() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("rules");
+    if !dir.is_dir() {
+        return; // the sample rules are not part of every checkout of this test
+    }
+    let summary = rules::validate(&[dir]).unwrap_or_else(|e| panic!("{e}"));
+    assert!(summary.contains("load and type-check"), "{summary}");
 }
