@@ -652,7 +652,7 @@ th{font-weight:600;color:var(--muted);font-size:.9em}
 table.rules{width:auto}
 .parts th[data-sort]{cursor:pointer;user-select:none}
 .parts th[data-dir="asc"]::after{content:" \25B2"}.parts th[data-dir="desc"]::after{content:" \25BC"}
-.parts td.problem{font-size:.9em;color:var(--muted);max-width:380px}
+.parts td.problem{font-size:.9em;color:var(--muted);max-width:380px}.parts td[data-v]{white-space:nowrap}
 .filters{display:flex;flex-wrap:wrap;gap:14px;align-items:center;margin:8px 0 10px}
 .filters select,.filters input{font:inherit;background:var(--card);color:var(--ink);border:1px solid var(--line);border-radius:3px;padding:2px 6px}
 .muted{color:var(--muted)}
