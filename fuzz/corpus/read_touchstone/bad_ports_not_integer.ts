@@ -1,0 +1,3 @@
+[Version] 2.0
+# GHz S RI R 50
+[Number of Ports] two

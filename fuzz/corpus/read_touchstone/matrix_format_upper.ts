@@ -1,0 +1,13 @@
+! upper triangle of the same matrix (our own file; the missing half is filled by symmetry)
+[Version] 2.1
+# GHz S MA R 50
+[Number of Ports] 4
+[Number of Frequencies] 1
+[Reference] 50 75 0.01 0.01
+[Matrix Format] upper
+[Network Data]
+5.00000 0.60 161.24 0.40 -42.20 0.42 -66.58 0.53 -79.34 !row 1
+0.60 161.20 0.53 -79.34 0.42 -66.58 !row 2
+0.60 161.24 0.40 -42.20 !row 3
+0.60 161.24 !row 4
+[End]
