@@ -172,3 +172,31 @@ fn frequencies_are_written_exactly() {
     assert_eq!(gen::freq_text(5_000_000_000.0, gen::Unit::KHz), "5000000");
     assert_eq!(gen::freq_text(123_000.0, gen::Unit::Hz), "123000");
 }
+
+/// The scenario's rules files load and type-check (what `lcgate validate --rules
+/// rules` does), and every rule group selects at least one part of the library.
+#[test]
+fn scenario_rules_load_and_select_parts() {
+    let set = lcgate::rules::load(&[repo().join("rules")]).unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(set.files.len(), 4, "one rules file per block of the chip");
+    let lib = repo().join("sample-library");
+    let parts: Vec<String> = files_under(&lib)
+        .into_iter()
+        .filter(|p| !p.ends_with(".yaml"))
+        .collect();
+    for rf in &set.files {
+        for (gi, g) in rf.groups.iter().enumerate() {
+            let n = parts
+                .iter()
+                .filter(|p| {
+                    set.groups_for(p)
+                        .iter()
+                        .any(|(f, h)| std::ptr::eq(*f, rf) && std::ptr::eq(*h, g))
+                })
+                .count();
+            assert!(n > 0, "{}: group {} selects no part", rf.path, gi + 1);
+        }
+    }
+    // the trial coil is matched by no group (reported unchecked)
+    assert!(set.groups_for("rf/scratch/L1p6n_trial_w7.s2p").is_empty());
+}

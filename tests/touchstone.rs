@@ -1329,3 +1329,51 @@ proptest::proptest! {
         }
     }
 }
+
+bad!(
+    bad_db_overflow,
+    "bad_db_overflow.s1p",
+    K::NonFinite(_),
+    2,
+    1,
+    "DESIGN §4: never NaN/inf (10^(7000/20) overflows)"
+);
+bad!(
+    bad_z_singular,
+    "bad_z_singular.s1p",
+    K::Singular("Z"),
+    3,
+    1,
+    "Pozar §4.3: S = (Zn + I)⁻¹(Zn − I)"
+);
+
+#[test]
+fn keyword_leading_blanks() {
+    // reference notes §9: ` [Version] 2.0` occurs in real files; `[Version] 2` is 2.0
+    let t = read("keyword_leading_blanks.ts");
+    assert_eq!(t.version, Version::V2_0);
+    assert_eq!(t.warnings.len(), 1, "{:?}", t.warnings);
+    assert_eq!((t.warnings[0].line, t.warnings[0].column), (2, 3));
+}
+
+#[test]
+fn result_memory_is_the_matrix_size() {
+    // the result reserves from the file size (v1) or [Number of Frequencies] (v2),
+    // so its capacity stays close to its length (common practice, no source)
+    let net = sample_net(4, 3000, 99);
+    for version in [Version::V1_0, Version::V2_0] {
+        let opts = WriteOptions {
+            version,
+            format: Format::MA,
+            ..WriteOptions::default()
+        };
+        let text = write_string(&net, &opts);
+        let t = read_bytes("big.s4p", text.as_bytes()).unwrap();
+        assert_eq!(t.network.points(), 3000);
+        let (cap, len) = (t.network.s.capacity(), t.network.s.len());
+        assert!(
+            cap <= len + len / 8 + 64,
+            "{version:?}: capacity {cap} for {len}"
+        );
+    }
+}

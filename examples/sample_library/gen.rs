@@ -1182,13 +1182,13 @@ fn all_parts(variant: Variant) -> Vec<Part> {
         parts.push(p);
     }
 
-    // a part with a sidecar (its band is set in L4p7n_w10_n3_lo.part.yaml)
+    // a part with a sidecar (its band is set in L3p9n_w6_n4_pgs_lo.part.yaml)
     parts.push(
         coil(
-            "rf/inductors/lb/L3p9n_w10_n3_lo.s2p",
+            "rf/inductors/lb/L3p9n_w6_n4_pgs_lo.s2p",
             3.9e-9,
             3.55e9,
-            oct(3.0, 10.0, 2.0),
+            oct(4.0, 6.0, 2.0),
             UTM_NAME,
             true,
             RF_GRID,
@@ -1645,7 +1645,7 @@ pub fn generate(root: &Path, variant: Variant) -> std::io::Result<Vec<PathBuf>> 
 
 /// Sidecar files: per-part overrides of a rule group's band and values.
 const SIDECARS: &[(&str, &str)] = &[(
-    "rf/inductors/lb/L3p9n_w10_n3_lo.part.yaml",
+    "rf/inductors/lb/L3p9n_w6_n4_pgs_lo.part.yaml",
     "# Used in the LO buffer at 3.5 GHz, not in the 2.4 GHz signal path.\n\
 band: 3.4GHz .. 3.7GHz\n",
 )];

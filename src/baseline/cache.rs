@@ -206,8 +206,8 @@ impl Cache {
         Lookup::Hit(Box::new(judged))
     }
 
-    /// Store the entry of `key`. Not fsynced: a torn entry after a crash fails the
-    /// checks of [`Cache::get`] and is recomputed.
+    /// Store the entry of `key`, atomically (a torn entry would fail the checks of
+    /// [`Cache::get`] and be recomputed anyway).
     pub fn put(&self, key: &str, judged: &Judged) -> io::Result<()> {
         let path = self.entry_path(key);
         if let Some(dir) = path.parent() {
@@ -219,7 +219,7 @@ impl Cache {
             key,
             part: judged,
         };
-        write::atomic_write_with(&path, false, |w: &mut dyn Write| {
+        write::atomic_write_with(&path, |w: &mut dyn Write| {
             serde_json::to_writer(w, &entry).map_err(io::Error::other)
         })
     }

@@ -8,10 +8,13 @@
 use std::collections::BTreeSet;
 
 use super::{in_shard, Baseline, Judged, Measure};
+use crate::units;
 use crate::verdict::{CheckStatus, DriftOutcome, PartReport, PartStatus, RulesFileInfo};
 
 /// The reports of a run judged against `baseline`, sorted by path: drift outcomes
-/// filled in (a drift that does not pass fails its part), parts not in the baseline
+/// filled in (a drift that does not pass fails its part; a quantity undefined both
+/// then and now passes; one the baseline does not hold is not compared), parts not in
+/// the baseline
 /// marked `new` (they fail only with `strict`), and a `missing` report for every part
 /// of the baseline that is no longer in the library. In a sharded run only the
 /// baseline's parts of the same shard can be missing.
@@ -39,10 +42,21 @@ pub fn apply(
                 }
                 Some(base) => {
                     for m in &j.measures {
-                        let before = base.drift.get(&m.quantity).copied().flatten();
-                        if let Some(outcome) = compare(m, before) {
-                            r.drift.push(outcome);
+                        // a quantity named after the baseline was recorded has nothing
+                        // to be compared with (the changed rules are named in the
+                        // report header)
+                        let Some(&before) = base.drift.get(&m.quantity) else {
+                            continue;
+                        };
+                        let Some(mut outcome) = compare(m, before) else {
+                            continue;
+                        };
+                        // undefined then and undefined now (an srf above the sweep
+                        // both times): nothing moved
+                        if before.is_none() && m.now.is_none() {
+                            outcome.status = CheckStatus::Pass;
                         }
+                        r.drift.push(outcome);
                     }
                     let drifted = r.drift.iter().any(|d| d.status != CheckStatus::Pass);
                     if drifted && matches!(r.status, PartStatus::Pass | PartStatus::Unchecked) {
@@ -92,6 +106,51 @@ pub fn rules_changed(now: &[RulesFileInfo], baseline: &Baseline) -> Vec<String> 
         .map(|(p, _)| p.to_string())
         .collect();
     changed.into_iter().collect()
+}
+
+/// One quantity of one part that moved since the baseline.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Move<'a> {
+    /// the part
+    pub path: &'a str,
+    /// the comparison
+    pub drift: &'a DriftOutcome,
+    /// |change| as a fraction of the limit (1.0 = at the limit); None when the limit
+    /// or the change is not a number
+    pub of_limit: Option<f64>,
+}
+
+/// Every drift that moved (a change other than zero, or an outcome other than pass),
+/// largest first: by the share of its limit used, failures first among equals, then
+/// by path and quantity. This is the order of a "changed since baseline" section.
+pub fn moves(parts: &[PartReport]) -> Vec<Move<'_>> {
+    let mut out: Vec<Move> = parts
+        .iter()
+        .flat_map(|p| p.drift.iter().map(move |d| (p.path.as_str(), d)))
+        .filter(|(_, d)| d.status != CheckStatus::Pass || d.change.is_some_and(|c| c != 0.0))
+        .map(|(path, d)| {
+            let limit = units::parse_quantity(&d.limit).ok().map(|(v, _)| v.abs());
+            let of_limit = match (d.change, limit) {
+                (Some(c), Some(l)) if l > 0.0 => Some(c.abs() / l),
+                _ => None,
+            };
+            Move {
+                path,
+                drift: d,
+                of_limit,
+            }
+        })
+        .collect();
+    out.sort_by(|a, b| {
+        let failed = |m: &Move| m.drift.status == CheckStatus::Pass;
+        b.of_limit
+            .unwrap_or(f64::INFINITY)
+            .total_cmp(&a.of_limit.unwrap_or(f64::INFINITY))
+            .then(failed(a).cmp(&failed(b)))
+            .then(a.path.cmp(b.path))
+            .then(a.drift.quantity.cmp(&b.drift.quantity))
+    });
+    out
 }
 
 #[cfg(test)]
@@ -180,6 +239,35 @@ mod tests {
     }
 
     #[test]
+    fn undefined_then_and_now_has_not_moved() {
+        let mut base = baseline(&["a.s2p", "b.s2p"]);
+        base.parts[0].drift.insert("srf".into(), None);
+        let mut a = judged("a.s2p", 1e-9);
+        let mut b = judged("b.s2p", 1e-9);
+        for j in [&mut a, &mut b] {
+            j.measures.push(Measure {
+                rules_file: "r.yaml".into(),
+                quantity: "srf".into(),
+                now: None,
+            });
+        }
+        let parts = apply(vec![a, b], &base, None, false, one_percent);
+        // a: recorded as undefined and still undefined
+        let srf = parts[0].drift.iter().find(|d| d.quantity == "srf").unwrap();
+        assert_eq!(srf.status, CheckStatus::Pass);
+        assert_eq!(parts[0].status, PartStatus::Pass);
+        // b: the baseline predates the quantity: not compared
+        assert_eq!(parts[1].drift.len(), 1);
+        assert_eq!(parts[1].status, PartStatus::Pass);
+        // defined then, undefined now: undecided, fails
+        let mut c = judged("a.s2p", 1e-9);
+        c.measures[0].now = None;
+        let parts = apply(vec![c], &base, None, false, one_percent);
+        assert_eq!(parts[0].drift[0].status, CheckStatus::Undecided);
+        assert_eq!(parts[0].status, PartStatus::Fail);
+    }
+
+    #[test]
     fn new_parts_fail_only_when_strict() {
         let base = baseline(&["a.s2p"]);
         let parts = apply(vec![judged("n.s2p", 1e-9)], &base, None, true, one_percent);
@@ -213,6 +301,28 @@ mod tests {
             missing += parts.len();
         }
         assert_eq!(missing, 30);
+    }
+
+    #[test]
+    fn largest_moves_first() {
+        let base = baseline(&["a.s2p", "b.s2p", "c.s2p", "d.s2p"]);
+        let now = vec![
+            judged("a.s2p", 1.005e-9),
+            judged("b.s2p", 0.97e-9),
+            judged("c.s2p", 1.0e-9),
+            judged("d.s2p", 1.002e-9),
+        ];
+        let parts = apply(now, &base, None, false, one_percent);
+        let m = moves(&parts);
+        let order: Vec<&str> = m.iter().map(|m| m.path).collect();
+        assert_eq!(
+            order,
+            ["b.s2p", "a.s2p", "d.s2p"],
+            "unchanged c is left out"
+        );
+        let share = m[0].of_limit.unwrap();
+        assert!((share - 3.0).abs() < 1e-9, "{share}");
+        assert!(m[0].drift.status == CheckStatus::Fail);
     }
 
     #[test]

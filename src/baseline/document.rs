@@ -217,7 +217,7 @@ pub fn save_with(
     path: &Path,
     fill: impl FnOnce(&mut dyn Write) -> io::Result<()>,
 ) -> io::Result<()> {
-    write::atomic_write_with(path, true, fill)
+    write::atomic_write_with(path, fill)
 }
 
 #[cfg(test)]

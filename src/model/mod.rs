@@ -216,7 +216,10 @@ pub fn verdict_line(figs: &ViewFigures) -> Option<String> {
     let shield = |f: f64| -> String {
         match figs.curve_at("shield_gain", f) {
             Some(g) if g > 1.05 => format!("a ground shield would raise Q by {}× there", sig3(g)),
-            Some(g) => format!("a ground shield would not help (×{})", sig3(g)),
+            Some(g) if g > 0.0 => format!("a ground shield would not help (×{})", sig3(g)),
+            Some(_) => "a ground shield would not help: its extra capacitance would put the \
+                        SRF below this frequency"
+                .to_string(),
             None => "the shield gain is undefined there".to_string(),
         }
     };

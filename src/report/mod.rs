@@ -1,2 +1,344 @@
-//! Report writers: terminal summary, `report.json`, JUnit XML, Markdown and the
-//! self-contained HTML page with plots. All file writes are atomic.
+//! Report writers: the terminal summary, `report.json` (`lcgate-report/1`), JUnit XML,
+//! the Markdown review comment and the self-contained HTML page with SVG plots, plus
+//! [`atomic_write`], which every write that matters in the crate goes through.
+//!
+//! Every writer takes the finished [`RunReport`] and nothing else, so `merge` can redraw
+//! all reports from joined `report.json` files. Output is deterministic: the same report
+//! gives the same bytes. Only [`RunInfo`](crate::verdict::RunInfo) (the run's time)
+//! varies between runs; it appears in the terminal line, the JSON and one separate
+//! element of the HTML page, never in `report.xml` or `report.md`.
+
+use std::fs;
+use std::io::{self, Write};
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
+
+use crate::verdict::{CheckOutcome, CheckStatus, DriftOutcome, PartReport, RunReport, Severity};
+
+mod html;
+mod json;
+mod junit;
+mod markdown;
+pub mod plot;
+mod terminal;
+
+pub use html::{html, part_ids as html_part_ids};
+pub use json::json;
+pub use junit::junit;
+pub use markdown::markdown;
+pub use terminal::terminal;
+
+/// File names written by [`write_all`], in the order they are written.
+pub const REPORT_FILES: [&str; 4] = ["report.json", "report.xml", "report.md", "report.html"];
+
+/// Write `report.json`, `report.xml`, `report.md` and `report.html` into `dir`
+/// (created if needed), each atomically. An error names the path that failed.
+pub fn write_all(dir: &Path, r: &RunReport) -> io::Result<()> {
+    fs::create_dir_all(dir).map_err(|e| with_path(dir, e))?;
+    let docs: [(&str, String); 4] = [
+        (REPORT_FILES[0], json(r)),
+        (REPORT_FILES[1], junit(r)),
+        (REPORT_FILES[2], markdown(r)),
+        (REPORT_FILES[3], html(r)),
+    ];
+    for (name, text) in docs {
+        atomic_write(&dir.join(name), text.as_bytes())?;
+    }
+    Ok(())
+}
+
+fn with_path(path: &Path, e: io::Error) -> io::Error {
+    io::Error::new(e.kind(), format!("{}: {e}", path.display()))
+}
+
+static TEMP_COUNTER: AtomicU64 = AtomicU64::new(0);
+
+/// Write `bytes` to `path` so that readers see either the old file or the whole new
+/// one, never a part: write a temporary file in the same folder, fsync it, rename it
+/// over `path` (rename is atomic within one file system), then fsync the folder on
+/// Unix so the rename itself survives a crash. Errors name the path.
+pub fn atomic_write(path: &Path, bytes: &[u8]) -> io::Result<()> {
+    let dir = match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    };
+    let name = path
+        .file_name()
+        .ok_or_else(|| {
+            io::Error::new(
+                io::ErrorKind::InvalidInput,
+                format!("{}: not a file path", path.display()),
+            )
+        })?
+        .to_string_lossy()
+        .into_owned();
+    let n = TEMP_COUNTER.fetch_add(1, Ordering::Relaxed);
+    let tmp = dir.join(format!(".{name}.tmp-{}-{n}", std::process::id()));
+    let result = (|| {
+        let mut f = fs::File::create(&tmp)?;
+        f.write_all(bytes)?;
+        f.sync_all()?;
+        drop(f);
+        fs::rename(&tmp, path)
+    })();
+    if let Err(e) = result {
+        let _ = fs::remove_file(&tmp);
+        return Err(with_path(path, e));
+    }
+    #[cfg(unix)]
+    if let Ok(d) = fs::File::open(&dir) {
+        // Best effort: some file systems refuse fsync on a directory.
+        let _ = d.sync_all();
+    }
+    Ok(())
+}
+
+// ---------------------------------------------------------------------------
+// Helpers shared by the writers.
+
+/// A check that fails the run: not passed, and error-level (or any level with `--strict`).
+pub(crate) fn is_failure(c: &CheckOutcome, strict: bool) -> bool {
+    c.status != CheckStatus::Pass && (c.severity == Severity::Error || strict)
+}
+
+/// A check reported as a warning: not passed, warning-level, and not `--strict`.
+pub(crate) fn is_warning(c: &CheckOutcome, strict: bool) -> bool {
+    c.status != CheckStatus::Pass && c.severity == Severity::Warning && !strict
+}
+
+/// The SI unit symbol of a figure by name, for printing bare numbers (drift values,
+/// figure tables). `l(band.mid)` is looked up as `l`. Ratios (Q, k, factors) give "".
+pub(crate) fn unit_of(quantity: &str) -> &'static str {
+    let mut q = quantity.trim();
+    for agg in ["min(", "max(", "mean("] {
+        if let Some(inner) = q.strip_prefix(agg) {
+            q = inner;
+        }
+    }
+    let name = q.split(['(', ' ', ')']).next().unwrap_or(q);
+    if name == "il_min" {
+        return "dB";
+    }
+    if let Some(info) = crate::figures::info(name) {
+        return info.dim.symbol();
+    }
+    match name {
+        "srf" | "f_q_peak" | "f_q_half" | "f_min" | "f_max" => "Hz",
+        n if n.starts_with("srf") || n.starts_with("f_") => "Hz",
+        "l" | "ls" | "l1" | "l2" | "m" | "l_low" | "l1_low" | "l2_low" => "H",
+        "c" | "cs" | "c_low" => "F",
+        n if n.starts_with("cox") || n.starts_with("csi") => "F",
+        "r" | "esr" | "rdc" | "rac" => "Ω",
+        n if n.starts_with("rsi") => "Ω",
+        "il_min" => "dB",
+        _ => "",
+    }
+}
+
+/// A value of the named figure in engineering form (`9.12 GHz`), or `n/a` for null.
+pub(crate) fn show_value(quantity: &str, v: Option<f64>) -> String {
+    match v {
+        None => "n/a".to_string(),
+        Some(v) => {
+            let unit = unit_of(quantity);
+            if unit == "dB" {
+                format!("{} dB", crate::units::sig3(v))
+            } else {
+                crate::units::eng(v, unit)
+            }
+        }
+    }
+}
+
+/// The change of a drift entry as printed: `+3.2%` for a relative limit, else the
+/// absolute change with the figure's unit.
+pub(crate) fn show_change(d: &DriftOutcome) -> String {
+    match d.change {
+        None => "n/a".to_string(),
+        Some(c) if d.limit.trim_end().ends_with('%') => {
+            format!(
+                "{}{}%",
+                if c >= 0.0 { "+" } else { "" },
+                crate::units::sig3(c * 100.0)
+            )
+        }
+        Some(c) => format!(
+            "{}{}",
+            if c >= 0.0 { "+" } else { "" },
+            show_value(&d.quantity, Some(c))
+        ),
+    }
+}
+
+/// Size of a drift move for ordering, comparable across entries: the relative change
+/// when both values are known, else the magnitude of the recorded change.
+pub(crate) fn drift_size(d: &DriftOutcome) -> f64 {
+    let rel = match (d.baseline, d.now) {
+        (Some(b), Some(n)) if b != 0.0 => Some(((n - b) / b).abs()),
+        _ => None,
+    };
+    let s = rel.or(d.change.map(f64::abs)).unwrap_or(f64::INFINITY);
+    if s.is_nan() {
+        f64::INFINITY
+    } else {
+        s
+    }
+}
+
+/// Drift entries of all parts, failing (or undecided) first, then largest move first,
+/// then by path and quantity so that ties are ordered the same way every time.
+pub(crate) fn drift_moves(r: &RunReport) -> Vec<(&PartReport, &DriftOutcome)> {
+    let mut v: Vec<(&PartReport, &DriftOutcome)> = r
+        .parts
+        .iter()
+        .flat_map(|p| p.drift.iter().map(move |d| (p, d)))
+        .collect();
+    v.sort_by(|a, b| {
+        let fa = a.1.status != CheckStatus::Pass;
+        let fb = b.1.status != CheckStatus::Pass;
+        fb.cmp(&fa)
+            .then(drift_size(b.1).total_cmp(&drift_size(a.1)))
+            .then(a.0.path.cmp(&b.0.path))
+            .then(a.1.quantity.cmp(&b.1.quantity))
+    });
+    v
+}
+
+/// Moves worth listing: failing ones, and passing ones that moved at all.
+pub(crate) fn drift_listed(r: &RunReport) -> Vec<(&PartReport, &DriftOutcome)> {
+    drift_moves(r)
+        .into_iter()
+        .filter(|(_, d)| d.status != CheckStatus::Pass || d.change.is_some_and(|c| c != 0.0))
+        .collect()
+}
+
+/// Rules-file paths in report order: those listed in `r.rules`, then any path a check
+/// names that is not listed (so nothing is dropped), sorted.
+pub(crate) fn rules_order(r: &RunReport) -> Vec<String> {
+    let mut v: Vec<String> = r.rules.iter().map(|i| i.path.clone()).collect();
+    let mut extra: Vec<String> = r
+        .parts
+        .iter()
+        .flat_map(|p| p.checks.iter().map(|c| c.rules_file.clone()))
+        .filter(|f| !v.contains(f))
+        .collect();
+    extra.sort();
+    extra.dedup();
+    v.extend(extra);
+    v
+}
+
+/// The suite title of a rules file, if the report lists it.
+pub(crate) fn suite_of<'a>(r: &'a RunReport, path: &str) -> Option<&'a str> {
+    r.rules
+        .iter()
+        .find(|i| i.path == path)
+        .map(|i| i.suite.as_str())
+        .filter(|s| !s.is_empty())
+}
+
+/// One-line count of the run, shared by the terminal and Markdown reports.
+pub(crate) fn count_line(r: &RunReport) -> String {
+    let s = &r.summary;
+    let mut parts = vec![format!("{} pass", s.pass), format!("{} fail", s.fail)];
+    for (n, w) in [
+        (s.unreadable, "unreadable"),
+        (s.unchecked, "unchecked"),
+        (s.missing, "missing"),
+        (s.new, "new"),
+    ] {
+        if n > 0 {
+            parts.push(format!("{n} {w}"));
+        }
+    }
+    let mut line = format!(
+        "{} {}: {}",
+        s.parts,
+        plural(s.parts, "part", "parts"),
+        parts.join(", ")
+    );
+    line.push_str(&format!(
+        "; {} failed {}",
+        s.failed_checks,
+        plural(s.failed_checks, "check", "checks")
+    ));
+    if s.warnings > 0 {
+        line.push_str(&format!(
+            ", {} {}",
+            s.warnings,
+            plural(s.warnings, "warning", "warnings")
+        ));
+    }
+    line
+}
+
+pub(crate) fn plural<'a>(n: usize, one: &'a str, many: &'a str) -> &'a str {
+    if n == 1 {
+        one
+    } else {
+        many
+    }
+}
+
+/// Word for a check status in reports.
+pub(crate) fn check_word(s: CheckStatus) -> &'static str {
+    match s {
+        CheckStatus::Pass => "pass",
+        CheckStatus::Fail => "fail",
+        CheckStatus::Undecided => "undecided",
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn units_by_figure_name() {
+        assert_eq!(unit_of("srf"), "Hz");
+        assert_eq!(unit_of("l(band.mid)"), "H");
+        assert_eq!(unit_of("q_peak"), "");
+        assert_eq!(unit_of("min(q(band))"), "");
+        assert_eq!(unit_of("max(l(band))"), "H");
+        assert_eq!(unit_of("rsi1"), "Ω");
+        assert_eq!(unit_of("cox2"), "F");
+        assert_eq!(show_value("srf", Some(9.123e9)), "9.12 GHz");
+        assert_eq!(show_value("srf", None), "n/a");
+    }
+
+    #[test]
+    fn change_printing() {
+        let mut d = DriftOutcome {
+            quantity: "q_peak".into(),
+            baseline: Some(10.0),
+            now: Some(9.5),
+            change: Some(-0.05),
+            limit: "3%".into(),
+            status: CheckStatus::Fail,
+        };
+        assert_eq!(show_change(&d), "-5%");
+        d.quantity = "l(band.mid)".into();
+        d.limit = "50pH".into();
+        d.change = Some(20e-12);
+        assert_eq!(show_change(&d), "+20 pH");
+        assert!((drift_size(&d) - 0.05).abs() < 1e-12);
+    }
+
+    #[test]
+    fn atomic_write_replaces_and_names_path() {
+        let dir = tempfile::tempdir().expect("tempdir");
+        let p = dir.path().join("a.txt");
+        atomic_write(&p, b"one").expect("write");
+        atomic_write(&p, b"two").expect("write");
+        assert_eq!(fs::read(&p).expect("read"), b"two");
+        // no temporary files left behind
+        let names: Vec<_> = fs::read_dir(dir.path())
+            .expect("list")
+            .map(|e| e.expect("entry").file_name())
+            .collect();
+        assert_eq!(names.len(), 1);
+        let bad = dir.path().join("no-such-dir").join("x.txt");
+        let e = atomic_write(&bad, b"x").expect_err("must fail");
+        assert!(e.to_string().contains("no-such-dir"), "{e}");
+    }
+}

@@ -512,7 +512,7 @@ impl Ev<'_, '_> {
             return T {
                 val,
                 worst_f: at,
-                shown: self.show_cmp(e, at, None),
+                shown: self.show_cmp(e, at),
                 reason,
             };
         };
@@ -522,7 +522,7 @@ impl Ev<'_, '_> {
                 return T {
                     val: None,
                     worst_f: None,
-                    shown: self.show_cmp(e, None, None),
+                    shown: self.show_cmp(e, None),
                     reason: Some(r),
                 }
             }
@@ -563,7 +563,7 @@ impl Ev<'_, '_> {
         T {
             val,
             worst_f: Some(f),
-            shown: self.show_cmp(e, Some(f), Some(e)),
+            shown: self.show_cmp(e, Some(f)),
             reason,
         }
     }
@@ -601,7 +601,7 @@ impl Ev<'_, '_> {
                     let m = tol_abs - dlo.abs().min(dhi.abs());
                     (Some(false), Some(m), None)
                 } else {
-                    (None, None, Some(bound_reason(&self.notes(e, at))))
+                    (None, None, Some(bound_reason(&self.notes(e))))
                 }
             }
             ExprKind::Binary { op, lhs, rhs } => {
@@ -611,7 +611,7 @@ impl Ev<'_, '_> {
                         let r = cmp_iv(*op, a, b);
                         match r {
                             Some((v, m)) => (Some(v), Some(m), None),
-                            None => (None, None, Some(bound_reason(&self.notes(e, at)))),
+                            None => (None, None, Some(bound_reason(&self.notes(e)))),
                         }
                     }
                     (Ok(V::Mech(a)), Ok(V::Mech(b))) => {
@@ -632,7 +632,7 @@ impl Ev<'_, '_> {
     }
 
     /// Why bounds could not decide: which figures are known only by a bound.
-    fn notes(&self, e: &Expr, at: Option<f64>) -> Vec<String> {
+    fn notes(&self, e: &Expr) -> Vec<String> {
         let mut out = Vec::new();
         walk_names(e, &mut |n| {
             if let Ok(V::Num(iv, d)) = self.name(n) {
@@ -647,15 +647,13 @@ impl Ev<'_, '_> {
                 }
             }
         });
-        let _ = at;
         out
     }
 
     // ------------------------------------------------------------ shown
 
     /// `srf 9.12 GHz >= 2 × 5.9 GHz = 11.8 GHz`: each side with its values put in.
-    fn show_cmp(&self, e: &Expr, at: Option<f64>, swept: Option<&Expr>) -> String {
-        let _ = swept;
+    fn show_cmp(&self, e: &Expr, at: Option<f64>) -> String {
         match &e.kind {
             ExprKind::Within { value, tol, target } => format!(
                 "{} within {} of {}",
@@ -761,7 +759,7 @@ impl Ev<'_, '_> {
                 self.subst_into(s, x, at, 3);
             }
             ExprKind::Binary { op, lhs, rhs } => {
-                let q = op.prec_pub();
+                let q = op.prec();
                 let (lp, rp) = if op.is_comparison() {
                     (q + 1, q + 1)
                 } else {
@@ -786,21 +784,9 @@ impl Ev<'_, '_> {
     }
 }
 
-impl BinOp {
-    pub(crate) fn prec_pub(self) -> u8 {
-        match self {
-            BinOp::Or => 1,
-            BinOp::And => 2,
-            BinOp::Add | BinOp::Sub => 5,
-            BinOp::Mul | BinOp::Div => 6,
-            _ => 4,
-        }
-    }
-}
-
 fn prec(e: &Expr) -> u8 {
     match &e.kind {
-        ExprKind::Binary { op, .. } => op.prec_pub(),
+        ExprKind::Binary { op, .. } => op.prec(),
         ExprKind::Within { .. } => 4,
         ExprKind::Not(_) => 3,
         ExprKind::Neg(_) => 7,

@@ -105,7 +105,7 @@ impl BinOp {
         }
     }
     /// Binding strength: higher binds tighter.
-    fn prec(self) -> u8 {
+    pub(crate) fn prec(self) -> u8 {
         match self {
             BinOp::Or => 1,
             BinOp::And => 2,
@@ -502,11 +502,12 @@ impl Parser {
     fn is_kw(&self, kw: &str) -> bool {
         matches!(self.peek(), Tok::Ident(s) if s == kw)
     }
-    fn enter(&mut self) -> Result<(), ExprError> {
+    /// One level deeper; `at` is the token that opened the level.
+    fn enter(&mut self, at: Span) -> Result<(), ExprError> {
         self.depth += 1;
         if self.depth > MAX_DEPTH {
             return Err(ExprError::new(
-                self.span(),
+                at,
                 format!("the expression nests more than {MAX_DEPTH} levels deep"),
             ));
         }
@@ -572,7 +573,7 @@ impl Parser {
     fn not(&mut self) -> Result<Expr, ExprError> {
         if self.is_kw("not") {
             let (_, s) = self.bump();
-            self.enter()?;
+            self.enter(s)?;
             let e = self.not()?;
             self.leave();
             let span = join(s, e.span);
@@ -688,7 +689,7 @@ impl Parser {
     fn unary(&mut self) -> Result<Expr, ExprError> {
         if matches!(self.peek(), Tok::Op("-")) {
             let (_, s) = self.bump();
-            self.enter()?;
+            self.enter(s)?;
             let e = self.unary()?;
             self.leave();
             let span = join(s, e.span);
@@ -717,7 +718,7 @@ impl Parser {
                 })
             }
             Tok::LParen => {
-                self.enter()?;
+                self.enter(span)?;
                 let e = self.expr()?;
                 self.leave();
                 self.expect_rparen(span)?;
@@ -738,7 +739,7 @@ impl Parser {
                 }
                 if matches!(self.peek(), Tok::LParen) {
                     let (_, open) = self.bump();
-                    self.enter()?;
+                    self.enter(open)?;
                     let arg = self.call_arg()?;
                     self.leave();
                     let close = self.expect_rparen(open)?;

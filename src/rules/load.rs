@@ -376,27 +376,27 @@ fn group(src: &Source, n: &N, ps: &mut Vec<Problem>) -> Option<Group> {
                                     ports.pair = pr;
                                 }
                             }
-                            other => {
-                                ps.push(unknown_key(src, pk, other, &["tap", "pair"], "`ports:`"))
+                            "windings" => {
+                                if let Some(w) = windings(src, pv, ps) {
+                                    ports.windings = w;
+                                }
                             }
+                            other => ps.push(unknown_key(
+                                src,
+                                pk,
+                                other,
+                                &["tap", "pair", "windings"],
+                                "`ports:`",
+                            )),
                         }
                     }
                 }
             }
-            "windings" => match &v.value {
-                Node::Seq(ws) if ws.len() == 2 => {
-                    let a = port_pair(src, &ws[0], ps);
-                    let b = port_pair(src, &ws[1], ps);
-                    if let (Some(a), Some(b)) = (a, b) {
-                        if a.iter().any(|p| b.contains(p)) {
-                            ps.push(src.at(v, "the two windings share a port"));
-                        } else {
-                            ports.windings = [a, b];
-                        }
-                    }
+            "windings" => {
+                if let Some(w) = windings(src, v, ps) {
+                    ports.windings = w;
                 }
-                _ => ps.push(src.at(v, "`windings:` is two port pairs, e.g. [[1, 3], [2, 4]]")),
-            },
+            }
             "band" => band_v = band(src, v, ps),
             "values" => {
                 if let Some(m) = mapping(src, v, "`values:`", ps) {
@@ -520,6 +520,26 @@ fn port(src: &Source, n: &N, ps: &mut Vec<Problem>) -> Option<usize> {
         Node::Number(x) if x.fract() == 0.0 && *x >= 1.0 && *x <= 64.0 => Some(*x as usize),
         _ => {
             ps.push(src.at(n, "a port is a number from 1 to the file's port count"));
+            None
+        }
+    }
+}
+
+/// `[[1, 3], [2, 4]]`: the two windings of a transformer.
+fn windings(src: &Source, v: &N, ps: &mut Vec<Problem>) -> Option<[[usize; 2]; 2]> {
+    match &v.value {
+        Node::Seq(ws) if ws.len() == 2 => {
+            let a = port_pair(src, &ws[0], ps);
+            let b = port_pair(src, &ws[1], ps);
+            let (a, b) = (a?, b?);
+            if a.iter().any(|p| b.contains(p)) {
+                ps.push(src.at(v, "the two windings share a port"));
+                return None;
+            }
+            Some([a, b])
+        }
+        _ => {
+            ps.push(src.at(v, "`windings:` is two port pairs, e.g. [[1, 3], [2, 4]]"));
             None
         }
     }

@@ -187,14 +187,12 @@ pub fn parse_number(t: &[u8]) -> Result<f64, NumError> {
         }
         _ => false,
     };
-    // mantissa digits, accumulated while they fit exactly
+    // Digits accumulate with wrapping arithmetic; the value is used only when there
+    // are at most 19 of them (no overflow possible below 10^19 < 2^64).
     let mut mant: u64 = 0;
-    let mut digits = 0usize; // significant digits taken into `mant`
-    let mut exact = true; // `mant` holds every digit
-    let mut exp10: i64 = 0;
     let int_start = i;
     while i < n && t[i].is_ascii_digit() {
-        push_digit(&mut mant, &mut digits, &mut exact, &mut exp10, t[i], false);
+        mant = mant.wrapping_mul(10).wrapping_add(u64::from(t[i] - b'0'));
         i += 1;
     }
     let int_digits = i - int_start;
@@ -203,7 +201,7 @@ pub fn parse_number(t: &[u8]) -> Result<f64, NumError> {
         i += 1;
         let fs = i;
         while i < n && t[i].is_ascii_digit() {
-            push_digit(&mut mant, &mut digits, &mut exact, &mut exp10, t[i], true);
+            mant = mant.wrapping_mul(10).wrapping_add(u64::from(t[i] - b'0'));
             i += 1;
         }
         frac_digits = i - fs;
@@ -211,6 +209,7 @@ pub fn parse_number(t: &[u8]) -> Result<f64, NumError> {
     if int_digits == 0 && frac_digits == 0 {
         return Err(NumError::Malformed);
     }
+    let mut exp10: i64 = 0;
     if i < n && (t[i] == b'e' || t[i] == b'E') {
         i += 1;
         let mut eneg = false;
@@ -219,20 +218,23 @@ pub fn parse_number(t: &[u8]) -> Result<f64, NumError> {
             i += 1;
         }
         let es = i;
-        let mut e: i64 = 0;
         while i < n && t[i].is_ascii_digit() {
-            e = (e * 10 + i64::from(t[i] - b'0')).min(1 << 40);
+            exp10 = (exp10 * 10 + i64::from(t[i] - b'0')).min(1 << 40);
             i += 1;
         }
         if i == es {
             return Err(NumError::Malformed);
         }
-        exp10 = exp10.saturating_add(if eneg { -e } else { e });
+        if eneg {
+            exp10 = -exp10;
+        }
     }
     if i != n {
         return Err(NumError::Malformed);
     }
-    let v = if exact && mant < (1u64 << 53) && (-22..=22).contains(&exp10) {
+    let exp10 = exp10 - frac_digits as i64;
+    let v = if int_digits + frac_digits <= 19 && mant < (1u64 << 53) && (-22..=22).contains(&exp10)
+    {
         // Clinger's fast path: both operands exact, one rounding.
         let m = mant as f64;
         if exp10 >= 0 {
@@ -249,47 +251,12 @@ pub fn parse_number(t: &[u8]) -> Result<f64, NumError> {
         };
         let s = std::str::from_utf8(body).map_err(|_| NumError::Malformed)?;
         let v: f64 = s.parse().map_err(|_| NumError::Malformed)?;
-        v.abs()
+        v
     };
     if !v.is_finite() {
         return Err(NumError::NonFinite);
     }
     Ok(if neg { -v } else { v })
-}
-
-#[inline]
-fn push_digit(
-    mant: &mut u64,
-    digits: &mut usize,
-    exact: &mut bool,
-    exp10: &mut i64,
-    d: u8,
-    frac: bool,
-) {
-    let d = u64::from(d - b'0');
-    if *digits == 0 && d == 0 {
-        // leading zeros carry no significance
-        if frac {
-            *exp10 -= 1;
-        }
-        return;
-    }
-    if *digits < 19 {
-        *mant = *mant * 10 + d;
-        *digits += 1;
-        if frac {
-            *exp10 -= 1;
-        }
-    } else {
-        // digits beyond what u64 holds: the fast path is off, the standard parser
-        // decides; keep exp10 consistent anyway
-        if d != 0 {
-            *exact = false;
-        }
-        if !frac {
-            *exp10 += 1;
-        }
-    }
 }
 
 /// Parse a token as a positive decimal integer (counts such as `[Number of Ports]`).

@@ -409,7 +409,19 @@ impl<'a> Parser<'a> {
         }
         // Content ends at `!`; only ASCII text before it.
         let mut cut = bytes.len();
-        for (i, &b) in bytes.iter().enumerate() {
+        // Fast skip over 16-byte blocks of plain text (vectorises); the exact scan
+        // starts at the first block holding anything special.
+        let mut from = 0;
+        for chunk in bytes.chunks_exact(16) {
+            let special = chunk.iter().fold(false, |acc, &b| {
+                acc | (b == b'!') | (b > 0x7E) | ((b < 0x20) & (b != b'\t'))
+            });
+            if special {
+                break;
+            }
+            from += 16;
+        }
+        for (i, &b) in bytes.iter().enumerate().skip(from) {
             if b == b'!' {
                 cut = i;
                 break;
@@ -1789,4 +1801,69 @@ impl<'a> Parser<'a> {
 /// A raw value as shown in messages (shortest form that reads back).
 fn fmt_raw(v: f64) -> String {
     format!("{v}")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn keyword_names_match_case_and_blanks() {
+        // TS1.1/TS2.0 rule 1: case-insensitive
+        assert_eq!(Kw::find(b"number of ports"), Some(Kw::NumberOfPorts));
+        assert_eq!(Kw::find(b" Network   DATA "), Some(Kw::NetworkData));
+        assert_eq!(Kw::find(b"two-port data order"), Some(Kw::TwoPortDataOrder));
+        assert_eq!(Kw::find(b"NumberofPorts"), None);
+        assert_eq!(Kw::find(b"Binary"), None);
+        assert_eq!(Kw::find(b""), None);
+    }
+
+    #[test]
+    fn port_count_from_extension() {
+        // TS1.1 rule 4: `.sNp`; `.ts` carries no count
+        assert_eq!(
+            ports_from_extension("a/b/x.s2p"),
+            Ok(Some((2, ".s2p".into())))
+        );
+        assert_eq!(
+            ports_from_extension("X.S12P"),
+            Ok(Some((12, ".S12P".into())))
+        );
+        assert_eq!(ports_from_extension("x.ts"), Ok(None));
+        assert_eq!(ports_from_extension("x"), Ok(None));
+        assert_eq!(ports_from_extension("x.sp"), Ok(None));
+        assert_eq!(ports_from_extension("x.y2p"), Ok(None));
+        assert_eq!(ports_from_extension("x.s0p"), Err(".s0p".into()));
+        assert_eq!(
+            ports_from_extension("x.s99999999999999999999999p"),
+            Err(".s99999999999999999999999p".into())
+        );
+    }
+
+    #[test]
+    fn pair_formats() {
+        // TS1.1 Option Line: RI, MA (degrees), DB (20·log10|N|)
+        assert_eq!(pair(Format::RI, 0.5, -0.25), C64::new(0.5, -0.25));
+        let m = pair(Format::MA, 2.0, 90.0);
+        assert!((m - C64::new(0.0, 2.0)).norm() < 1e-15);
+        let d = pair(Format::DB, 20.0, 180.0);
+        assert!((d - C64::new(-10.0, 0.0)).norm() < 1e-13);
+    }
+
+    #[test]
+    fn v1_record_length_gives_port_count() {
+        // reference notes §5.4: 1 + 2N² values per record
+        for n in 1..=6usize {
+            let mut text = String::from("# RI\n1");
+            for k in 0..n * n {
+                text.push_str(&format!(" {k} 0"));
+                if k % n == n - 1 {
+                    text.push('\n');
+                }
+            }
+            let t = read_bytes("x", text.as_bytes()).unwrap();
+            assert_eq!(t.network.ports, n);
+            assert_eq!(t.network.s[n * n - 1], C64::new((n * n - 1) as f64, 0.0));
+        }
+    }
 }

@@ -286,13 +286,77 @@ fn angle(c: C64) -> f64 {
 
 /// Shortest text that reads back to the same f64: plain decimals for ordinary
 /// magnitudes, exponent form for very large or small ones.
-fn num(v: f64) -> String {
-    let a = v.abs();
-    if v == 0.0 {
-        "0".into()
-    } else if (1e-4..1e15).contains(&a) {
-        format!("{v}")
-    } else {
-        format!("{v:e}")
+struct Num(f64);
+
+impl std::fmt::Display for Num {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let v = self.0;
+        if v == 0.0 {
+            f.write_str("0")
+        } else if (1e-4..1e15).contains(&v.abs()) {
+            write!(f, "{v}")
+        } else {
+            write!(f, "{v:e}")
+        }
+    }
+}
+
+fn num(v: f64) -> Num {
+    Num(v)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn numbers_are_shortest_and_read_back() {
+        for v in [
+            0.0,
+            1.0,
+            -0.5,
+            0.1,
+            1e-5,
+            123456.789,
+            1e15,
+            5e-324,
+            f64::MAX,
+            2.4e9,
+        ] {
+            let s = num(v).to_string();
+            assert_eq!(s.parse::<f64>().unwrap(), v, "{s}");
+            assert_eq!(
+                crate::touchstone::lex::parse_number(s.as_bytes()),
+                Ok(v),
+                "{s}"
+            );
+        }
+        assert_eq!(num(0.25).to_string(), "0.25");
+        assert_eq!(num(1e-7).to_string(), "1e-7");
+    }
+
+    #[test]
+    fn zero_magnitude_in_db_is_finite() {
+        let mut out = String::new();
+        push_pair(&mut out, C64::new(0.0, 0.0), Format::DB);
+        assert_eq!(out, " -6000 0");
+    }
+
+    #[test]
+    fn h_and_g_need_two_ports() {
+        let net = Network {
+            freq: vec![1.0],
+            ports: 1,
+            z0: vec![50.0],
+            s: vec![C64::new(0.1, 0.0)],
+        };
+        let opts = WriteOptions {
+            param: Param::H,
+            ..WriteOptions::default()
+        };
+        assert!(matches!(
+            try_write_string(&net, &opts),
+            Err(WriteError::NeedsTwoPort { .. })
+        ));
     }
 }
