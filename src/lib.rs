@@ -12,6 +12,7 @@ pub mod figures;
 pub mod library;
 pub mod model;
 pub mod network;
+pub mod pipeline;
 pub mod report;
 pub mod rules;
 pub mod touchstone;
