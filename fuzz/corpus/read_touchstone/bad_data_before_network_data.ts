@@ -1,5 +1,0 @@
-[Version] 2.0
-# GHz S RI R 50
-[Number of Ports] 1
-[Number of Frequencies] 1
-1 0.5 0

@@ -1,4 +1,0 @@
-[Version] 2.0
-# GHz S RI R 50
-[Number of Ports] 2
-[Matrix Format] Diagonal

@@ -1,6 +1,0 @@
-[Version] 2.0
-# GHz S RI R 50
-[Number of Ports] 1
-[Network Data]
-1 0.5 0
-[End]

@@ -1,3 +1,0 @@
-[Version] 2.0
-[Number of Ports] 1
-# GHz S RI R 50

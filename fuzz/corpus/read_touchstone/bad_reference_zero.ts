@@ -1,8 +1,0 @@
-[Version] 2.0
-# GHz S RI R 50
-[Number of Ports] 1
-[Number of Frequencies] 1
-[Reference] 0
-[Network Data]
-1 0 0
-[End]

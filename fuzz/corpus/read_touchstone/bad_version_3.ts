@@ -1,2 +1,0 @@
-[Version] 3.0
-# GHz S RI R 50
