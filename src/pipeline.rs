@@ -311,10 +311,7 @@ fn compare_drift(
     m: &Measure,
     before: Option<f64>,
 ) -> Option<crate::verdict::DriftOutcome> {
-    let file = rules
-        .files
-        .iter()
-        .find(|f| f.path == m.rules_file)?;
+    let file = rules.files.iter().find(|f| f.path == m.rules_file)?;
     let rule = file.drift.iter().find(|d| d.quantity == m.quantity)?;
     Some(rule.compare(before, m.now))
 }

@@ -629,33 +629,65 @@ fn a_single_file_can_be_checked_and_unselected_parts_pass_as_unchecked() {
 fn record_then_check_against_the_baseline() {
     let d = sub_library(&["coils/L1p0n.s2p", "caps/C0p5p.s1p"]);
     let p = d.path();
-    let o = lcgate(p, &["record", "lib", "--rules", "rules", "-o", "base.json", "-q"]);
+    let o = lcgate(
+        p,
+        &["record", "lib", "--rules", "rules", "-o", "base.json", "-q"],
+    );
     assert_eq!(code(&o), 0, "{}", String::from_utf8_lossy(&o.stderr));
-    let base: serde_json::Value = serde_json::from_slice(&std::fs::read(p.join("base.json")).unwrap()).unwrap();
+    let base: serde_json::Value =
+        serde_json::from_slice(&std::fs::read(p.join("base.json")).unwrap()).unwrap();
     assert_eq!(base["format"], "lcgate-baseline/1");
 
     let out = p.join("out");
-    let args = ["check", "lib", "--rules", "rules", "--baseline", "base.json", "--no-cache", "-q", "--report", out.to_str().unwrap()];
+    let args = [
+        "check",
+        "lib",
+        "--rules",
+        "rules",
+        "--baseline",
+        "base.json",
+        "--no-cache",
+        "-q",
+        "--report",
+        out.to_str().unwrap(),
+    ];
     let o = lcgate(p, &args);
     assert_eq!(code(&o), 0, "{}", String::from_utf8_lossy(&o.stdout));
-    let r: RunReport = serde_json::from_str(&std::fs::read_to_string(out.join("report.json")).unwrap()).unwrap();
+    let r: RunReport =
+        serde_json::from_str(&std::fs::read_to_string(out.join("report.json")).unwrap()).unwrap();
     let coil = part(&r, "coils/L1p0n.s2p");
     let quantities: Vec<&str> = coil.drift.iter().map(|d| d.quantity.as_str()).collect();
     assert_eq!(quantities, ["srf"]);
-    assert!(coil.drift.iter().all(|d| d.status == CheckStatus::Pass && d.change == Some(0.0)));
+    assert!(coil
+        .drift
+        .iter()
+        .all(|d| d.status == CheckStatus::Pass && d.change == Some(0.0)));
 
     // the lossy coil under the same name: srf falls from 31.8 to 22.8 GHz (closed
     // forms of tests/support), far beyond 2%
-    std::fs::copy(data("lib-small/coils/L1p0n_lossy.s2p"), p.join("lib/coils/L1p0n.s2p")).unwrap();
+    std::fs::copy(
+        data("lib-small/coils/L1p0n_lossy.s2p"),
+        p.join("lib/coils/L1p0n.s2p"),
+    )
+    .unwrap();
     std::fs::remove_file(p.join("lib/caps/C0p5p.s1p")).unwrap();
-    std::fs::write(p.join("lib/caps/keep.s1p"), std::fs::read(data("lib-small/tanks/tank.s1p")).unwrap()).unwrap();
+    std::fs::write(
+        p.join("lib/caps/keep.s1p"),
+        std::fs::read(data("lib-small/tanks/tank.s1p")).unwrap(),
+    )
+    .unwrap();
     let o = lcgate(p, &args);
     assert_eq!(code(&o), 1);
-    let r: RunReport = serde_json::from_str(&std::fs::read_to_string(out.join("report.json")).unwrap()).unwrap();
+    let r: RunReport =
+        serde_json::from_str(&std::fs::read_to_string(out.join("report.json")).unwrap()).unwrap();
     let coil = part(&r, "coils/L1p0n.s2p");
     let srf = coil.drift.iter().find(|d| d.quantity == "srf").unwrap();
     let want = LOSSY.srf_se(1e8, 40e9).unwrap() / GOOD.srf_se(1e8, 40e9).unwrap() - 1.0;
-    assert!((srf.change.unwrap() - want).abs() < 2e-3, "{:?} vs {want}", srf.change);
+    assert!(
+        (srf.change.unwrap() - want).abs() < 2e-3,
+        "{:?} vs {want}",
+        srf.change
+    );
     assert_eq!(srf.status, CheckStatus::Fail);
     assert_eq!(coil.status, PartStatus::Fail);
     assert_eq!(part(&r, "caps/C0p5p.s1p").status, PartStatus::Missing);

@@ -1307,6 +1307,30 @@ proptest::proptest! {
     }
 
     #[test]
+    fn text_like_input_never_panics_and_results_are_sound(
+        parts in proptest::collection::vec(proptest::sample::select(vec![
+            "# ", "GHz ", "S ", "Y ", "Z ", "H ", "G ", "RI ", "MA ", "DB ", "R ", "50 ", "0 ", "-1 ",
+            "1 ", "2 ", ".5 ", "1e3 ", "\n", "\r\n", "\r", "! c\n", "[Version] 2.0\n",
+            "[Number of Ports] 2\n", "[Number of Ports] 1\n", "[Two-Port Data Order] 21_12\n",
+            "[Number of Frequencies] 2\n", "[Reference] 50 ", "[Matrix Format] Lower\n",
+            "[Network Data]\n", "[Noise Data]\n", "[Number of Noise Frequencies] 1\n", "[End]\n",
+            "[Begin Information]\n", "[End Information]\n",
+        ]), 0..60)
+    ) {
+        let text: String = parts.concat();
+        for name in ["p.s1p", "p.s2p", "p.ts"] {
+            if let Ok(t) = read_bytes(name, text.as_bytes()) {
+                let n = &t.network;
+                proptest::prop_assert_eq!(n.s.len(), n.points() * n.ports * n.ports);
+                proptest::prop_assert_eq!(n.z0.len(), n.ports);
+                proptest::prop_assert!(n.z0.iter().all(|&r| r > 0.0 && r.is_finite()));
+                proptest::prop_assert!(n.freq.windows(2).all(|w| w[0] < w[1]));
+                proptest::prop_assert!(n.s.iter().all(|c| c.is_finite()));
+            }
+        }
+    }
+
+    #[test]
     fn mutated_valid_files_never_panic(pos in 0usize..2000, byte in proptest::num::u8::ANY, cut in 0usize..2000) {
         for name in ["noise_data_v2.ts", "spec_v11_example5_four_port_ma.s4p", "matrix_format_lower.ts"] {
             let mut b = std::fs::read(path(name)).unwrap();

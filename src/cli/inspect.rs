@@ -248,6 +248,9 @@ fn view_json(figs: &ViewFigures, fs: &[f64]) -> Value {
 
 fn show(v: Option<f64>, unit: &str) -> String {
     match v {
+        // a tiny ratio (a passivity margin, a reciprocity error) reads better in
+        // scientific notation than as a row of zeros
+        Some(x) if unit.is_empty() && x != 0.0 && x.abs() < 1e-3 => format!("{x:.2e}"),
         Some(x) if unit.is_empty() => sig3(x),
         Some(x) => eng(x, unit),
         None => "—".to_string(),
@@ -355,13 +358,14 @@ pub fn to_table(ins: &Inspection, at: &At) -> String {
 fn scalar_lines(figs: &ViewFigures) -> String {
     let s = |n: &str| figs.scalar(n);
     let f_max = figs.freq.last().copied();
-    let srf = match s("srf") {
+    let srf_of = |name: &str| match s(name) {
         Some(v) => eng(v, "Hz"),
         None => match f_max {
             Some(fm) => format!("above {} (not in the sweep)", eng(fm, "Hz")),
             None => "—".into(),
         },
     };
+    let srf = srf_of("srf");
     match figs.kind {
         Kind::Inductor => {
             let peak = match (s("q_peak"), s("f_q_peak")) {
@@ -380,8 +384,8 @@ fn scalar_lines(figs: &ViewFigures) -> String {
         Kind::Capacitor => format!("  SRF {srf}   C at f_min {}\n", show(s("c_low"), "F")),
         Kind::Transformer => format!(
             "  SRF winding 1 {}   winding 2 {}\n",
-            show(s("srf1"), "Hz"),
-            show(s("srf2"), "Hz")
+            srf_of("srf1"),
+            srf_of("srf2")
         ),
     }
 }

@@ -1,11 +1,15 @@
 //! Numerics on a frequency grid: interpolation, derivatives on non-uniform grids,
 //! zero crossings and the parabola refinement of a peak.
 //!
-//! Interpolation between sweep points is linear in f. It is exact on the sweep
-//! points, never overshoots (a value between two samples lies between them, so a
-//! band check cannot invent a better or worse value than the data shows), and needs
-//! no assumption about the curve's shape; EM sweeps are dense enough for its O(h²)
-//! error to stay below the solver's own noise.
+//! Interpolation between sweep points is piecewise power law: between two samples
+//! of the same sign (and f > 0) the curve is taken as y = a·f^b through both, i.e.
+//! linear in (ln f, ln |y|); otherwise (a sign change, a zero) linear in f. Both
+//! are exact on the sweep points and never overshoot (a value between two samples
+//! lies between them, so a band check cannot invent a better or worse value than
+//! the data shows). The power law is exact for the shapes these curves take away
+//! from resonance — L and C flat, Q ∝ f (conductor-limited coil), Q ∝ 1/f
+//! (capacitor), R ∝ √f (skin effect) — where plain linear interpolation errs by
+//! tens of percent on a coarse grid (a capacitor's Q between 100 and 350 MHz).
 
 /// `Some(x)` when x is finite.
 pub fn fin(x: f64) -> Option<f64> {
@@ -25,8 +29,9 @@ pub fn bracket(f: &[f64], x: f64) -> Option<usize> {
     Some(p.saturating_sub(1).min(f.len() - 2))
 }
 
-/// Linear interpolation of `y` (on grid `f`) at x; exact at sweep points; None
-/// outside the sweep or where a needed sample is undefined.
+/// Piecewise power-law interpolation of `y` (on grid `f`) at x (see the module
+/// doc); exact at sweep points; None outside the sweep or where a needed sample is
+/// undefined.
 pub fn interp(f: &[f64], y: &[Option<f64>], x: f64) -> Option<f64> {
     let i = bracket(f, x)?;
     if f.len() == 1 {
@@ -40,6 +45,13 @@ pub fn interp(f: &[f64], y: &[Option<f64>], x: f64) -> Option<f64> {
         return y[i + 1];
     }
     let (y0, y1) = (y[i]?, y[i + 1]?);
+    if f0 > 0.0 && y0 != 0.0 && y1 != 0.0 && (y0 > 0.0) == (y1 > 0.0) {
+        let t = (x / f0).ln() / (f1 / f0).ln();
+        let v = y0.signum() * (y0.abs().ln() + t * (y1.abs() / y0.abs()).ln()).exp();
+        if let Some(v) = fin(v) {
+            return Some(v);
+        }
+    }
     fin(y0 + (y1 - y0) * (x - f0) / (f1 - f0))
 }
 
@@ -202,12 +214,30 @@ mod tests {
     #[test]
     fn interpolation_and_bracket() {
         let f = [1.0, 2.0, 4.0];
-        let y = [Some(1.0), Some(3.0), None];
-        assert_eq!(interp(&f, &y, 1.5), Some(2.0));
+        let y = [Some(-1.0), Some(3.0), None];
+        // a sign change: linear
+        assert_eq!(interp(&f, &y, 1.5), Some(1.0));
         assert_eq!(interp(&f, &y, 2.0), Some(3.0));
         assert_eq!(interp(&f, &y, 3.0), None);
         assert_eq!(interp(&f, &y, 0.5), None);
         assert_eq!(bracket(&f, 4.0), Some(1));
+    }
+
+    #[test]
+    fn power_law_interpolation_is_exact_for_power_laws() {
+        // y = 5/f and y = 2·√f between coarse samples (common practice, no source)
+        let f = [1e8, 3.5e8, 6e8];
+        for (g, name) in [
+            (Box::new(|x: f64| 5e9 / x) as Box<dyn Fn(f64) -> f64>, "1/f"),
+            (Box::new(|x: f64| 2.0 * x.sqrt()), "sqrt f"),
+            (Box::new(|x: f64| -3.0 * x), "-f"),
+        ] {
+            let y: Vec<_> = f.iter().map(|&x| Some(g(x))).collect();
+            for x in [1.2e8, 2e8, 5e8] {
+                let got = interp(&f, &y, x).unwrap();
+                assert!((got - g(x)).abs() < 1e-12 * g(x).abs(), "{name} at {x}");
+            }
+        }
     }
 
     #[test]

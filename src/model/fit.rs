@@ -521,37 +521,31 @@ pub fn fit_view(
     if yin.iter().any(|y| !(y.re.is_finite() && y.im.is_finite())) {
         return Err("the input admittance is not finite in the fitted band".into());
     }
-    let model = match two_port {
+    let branches = match two_port {
         Some(y2) if *name != ViewName::CentreTapped && y2.len() >= y_in.len() => {
-            let ys: Vec<C64> = idx.iter().map(|&i| -y2[i][1]).collect();
-            let sh1: Vec<C64> = idx.iter().map(|&i| y2[i][0] + y2[i][1]).collect();
-            let sh2: Vec<C64> = idx.iter().map(|&i| y2[i][3] + y2[i][2]).collect();
-            if ys
-                .iter()
-                .chain(&sh1)
-                .chain(&sh2)
-                .any(|y| !y.norm().is_finite())
-            {
-                return Err("the 2-port admittance is not finite in the fitted band".into());
-            }
-            let s0 = series_start(&f, &ys)?;
-            let s = solver.solve(&SeriesForm, &f, &ys, &s0)?;
-            let a = fit_shunt(solver, &f, &sh1, &ys);
-            let b = fit_shunt(solver, &f, &sh2, &ys);
-            PiModel {
-                ls: s[0],
-                rdc: s[1],
-                rac: s[2],
-                cs: s[3],
-                cox1: a[0],
-                csi1: a[1],
-                rsi1: a[2],
-                cox2: b[0],
-                csi2: b[1],
-                rsi2: b[2],
-            }
+            Some(fit_branches(solver, &idx, &f, y2))
         }
-        _ => fit_one_port(solver, &f, &yin, drive)?,
+        _ => None,
+    };
+    let err_of = |m: &PiModel| rms_rel(|fi| m.y_drive(fi, drive), &f, &yin);
+    let model = match branches {
+        // the branches describe the drive: done
+        Some(Ok(m)) if err_of(&m) <= 0.05 => m,
+        // a 2-port whose branches are not a coil's (e.g. one end of a centre-tapped
+        // coil with the tap grounded): the whole one-port under this drive instead
+        Some(first) => match (first, fit_one_port(solver, &f, &yin, drive)) {
+            (Ok(a), Ok(b)) => {
+                if err_of(&b) < err_of(&a) {
+                    b
+                } else {
+                    a
+                }
+            }
+            (Ok(a), Err(_)) => a,
+            (Err(_), Ok(b)) => b,
+            (Err(e), Err(_)) => return Err(e),
+        },
+        None => fit_one_port(solver, &f, &yin, drive)?,
     };
     let fit_error = rms_rel(|fi| model.y_drive(fi, drive), &f, &yin);
     if !fit_error.is_finite() || fit_error > MAX_FIT_ERROR {
@@ -732,6 +726,43 @@ fn lm_closure(whole: &dyn Whole, x0: &[f64], m: usize) -> Option<Vec<f64>> {
         | TerminationReason::WrongDimensions(_) => None,
         _ => Some(prob.x_of(&prob.p)),
     }
+}
+
+/// The π's branches from a 2-port's Y, separately: series from −Y12, shunts from
+/// Y11 + Y12 and Y22 + Y21.
+fn fit_branches(
+    solver: &dyn Solver,
+    idx: &[usize],
+    f: &[f64],
+    y2: &[[C64; 4]],
+) -> Result<PiModel, String> {
+    let ys: Vec<C64> = idx.iter().map(|&i| -y2[i][1]).collect();
+    let sh1: Vec<C64> = idx.iter().map(|&i| y2[i][0] + y2[i][1]).collect();
+    let sh2: Vec<C64> = idx.iter().map(|&i| y2[i][3] + y2[i][2]).collect();
+    if ys
+        .iter()
+        .chain(&sh1)
+        .chain(&sh2)
+        .any(|y| !y.norm().is_finite())
+    {
+        return Err("the 2-port admittance is not finite in the fitted band".into());
+    }
+    let s0 = series_start(f, &ys)?;
+    let s = solver.solve(&SeriesForm, f, &ys, &s0)?;
+    let a = fit_shunt(solver, f, &sh1, &ys);
+    let b = fit_shunt(solver, f, &sh2, &ys);
+    Ok(PiModel {
+        ls: s[0],
+        rdc: s[1],
+        rac: s[2],
+        cs: s[3],
+        cox1: a[0],
+        csi1: a[1],
+        rsi1: a[2],
+        cox2: b[0],
+        csi2: b[1],
+        rsi2: b[2],
+    })
 }
 
 /// The whole one-port Y_in = Y_ser + Y_sh,eff; under a floating drive the effective

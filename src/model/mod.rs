@@ -262,9 +262,11 @@ pub fn verdict_line(figs: &ViewFigures) -> Option<String> {
             }
         }
     }
-    out.push_str(&format!(
-        " (π-model fit error {}%)",
-        sig3(100.0 * story.fit_error)
-    ));
+    if story.fit_error > 0.05 {
+        out.push_str(&format!(
+            " (the π-model fits these data only to {}%: read the loss split with care)",
+            sig3(100.0 * story.fit_error)
+        ));
+    }
     Some(out)
 }

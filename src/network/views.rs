@@ -23,11 +23,11 @@ use super::{convert, Network, PortMap, View, ViewName, C64};
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum ViewError {
     /// The view needs a different number of ports.
-    #[error("view `{view}` needs {needs} ports, the data has {found}")]
+    #[error("view `{view}` needs {needs}, the data has {found}")]
     WrongPorts {
         /// the view asked for
         view: ViewName,
-        /// what it needs, in words ("1", "at least 2", …)
+        /// what it needs, in words ("1 port", "at least 2 ports", …)
         needs: &'static str,
         /// ports in the data
         found: usize,
@@ -141,7 +141,7 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
             if n != 1 {
                 return Err(ViewError::WrongPorts {
                     view: name,
-                    needs: "1",
+                    needs: "1 port",
                     found: n,
                 });
             }
@@ -161,7 +161,11 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
             if n < min {
                 return Err(ViewError::WrongPorts {
                     view: name,
-                    needs: if min == 3 { "at least 3" } else { "at least 2" },
+                    needs: if min == 3 {
+                        "at least 3 ports"
+                    } else {
+                        "at least 2 ports"
+                    },
                     found: n,
                 });
             }
@@ -194,7 +198,7 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
             if n < 4 {
                 return Err(ViewError::WrongPorts {
                     view: name,
-                    needs: "at least 4",
+                    needs: "at least 4 ports",
                     found: n,
                 });
             }

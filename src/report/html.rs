@@ -665,8 +665,8 @@ section.part.st-pass{border-left-color:var(--pass)}section.part.st-fail{border-l
 section.part.st-unreadable{border-left-color:var(--unreadable)}section.part.st-missing{border-left-color:var(--missing)}
 .meta{color:var(--muted);margin:0 0 8px}
 pre.error{white-space:pre-wrap;background:var(--bg);border:1px solid var(--line);padding:8px;color:var(--fail)}
-tr.bad td:nth-child(2){color:var(--fail);font-weight:700}tr.warn td:nth-child(2){color:var(--missing);font-weight:700}
-tr.ok td:nth-child(2){color:var(--pass)}
+table.checks tr.bad td:nth-child(2){color:var(--fail);font-weight:700}table.checks tr.warn td:nth-child(2){color:var(--missing);font-weight:700}
+table.checks tr.ok td:nth-child(2){color:var(--pass)}
 table.drift tr.bad td:last-child{color:var(--fail);font-weight:700}
 .why,.hint{font-size:.9em}.hint{color:var(--accent)}
 caption{text-align:left;font-weight:600;padding:8px 0 4px;color:var(--muted)}
@@ -682,10 +682,10 @@ svg .frame{fill:none;stroke:var(--line)}
 svg .zero{stroke:var(--muted);stroke-width:.8;fill:none}
 svg .band{fill:var(--band)}
 svg .curve{fill:none;stroke-width:2;stroke-linejoin:round}
-svg .legend line{stroke-width:3}
+svg .legend line{stroke-width:3}svg .legend text{stroke:none;fill:var(--ink)}
 svg .s-l{stroke:var(--s-l)}svg .s-q{stroke:var(--s-q)}svg .s-qt{stroke:var(--s-qt);stroke-dasharray:6 3}svg .s-il{stroke:var(--s-il)}
 svg .mark path{stroke:var(--ink);stroke-width:1;stroke-dasharray:3 3;fill:none;opacity:.7}
-svg .mark.mk-srf path{stroke:var(--fail);opacity:.9}
+svg .mark.mk-srf path{stroke:var(--fail);stroke-width:1.6;stroke-dasharray:5 2;opacity:1}
 svg .mark text{fill:var(--ink);font-size:10.5px}
 svg .m-conductor{fill:var(--m-conductor)}svg .m-substrate{fill:var(--m-substrate)}svg .m-resonance{fill:var(--m-resonance)}
 svg .slabel{font-size:10.5px}

@@ -642,17 +642,25 @@ pub fn svg_chart(c: &Chart) -> String {
     }
     let _ = write!(o, "</g>");
 
-    // marks, labels staggered so neighbours do not overlap
+    // marks; each label goes right of its line when it fits (else left), in the first
+    // of four rows where it overlaps no other label
     let mut marks: Vec<&Mark> = c.marks.iter().filter(|m| m.f >= fl && m.f <= fh).collect();
     marks.sort_by(|a, b| a.f.total_cmp(&b.f));
-    let mut last_x = f64::NEG_INFINITY;
-    let mut row = 0;
+    let mut rows: Vec<Vec<(f64, f64)>> = vec![Vec::new(); 4];
     for m in marks {
         let x = xf(m.f);
-        row = if x - last_x < 110.0 { (row + 1) % 3 } else { 0 };
-        last_x = x;
-        let ty = TOP + 12.0 + 12.0 * row as f64;
-        let anchor = if x > x1 - 110.0 { "end" } else { "start" };
+        // about 5.8 px per character at the marks' 10.5 px font
+        let w = 5.8 * m.label.chars().count() as f64 + 4.0;
+        let (anchor, a, b) = if x + w <= x1 {
+            ("start", x, x + w)
+        } else {
+            ("end", x - w, x)
+        };
+        let row = (0..rows.len())
+            .find(|&r| rows[r].iter().all(|&(p, q)| b < p || a > q))
+            .unwrap_or(rows.len() - 1);
+        rows[row].push((a, b));
+        let ty = TOP + 11.0 + 12.0 * row as f64;
         let tx = if anchor == "end" { x - 3.0 } else { x + 3.0 };
         let _ = write!(
             o,

@@ -945,3 +945,116 @@ fn fin(x: f64) -> f64 {
         f64::MIN
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const F: Dims = Dims(-1, 0);
+
+    #[test]
+    fn bounds_decide_only_when_they_can() {
+        let above10 = Iv::above(10.0);
+        assert_eq!(
+            cmp_iv(BinOp::Ge, above10, Iv::exact(9.0)).map(|x| x.0),
+            Some(true)
+        );
+        assert_eq!(
+            cmp_iv(BinOp::Ge, above10, Iv::exact(10.0)).map(|x| x.0),
+            Some(true)
+        );
+        // the bound is strict: known above 10 satisfies > 10
+        assert_eq!(
+            cmp_iv(BinOp::Gt, above10, Iv::exact(10.0)).map(|x| x.0),
+            Some(true)
+        );
+        assert_eq!(cmp_iv(BinOp::Ge, above10, Iv::exact(11.0)), None);
+        assert_eq!(
+            cmp_iv(BinOp::Lt, above10, Iv::exact(10.0)).map(|x| x.0),
+            Some(false)
+        );
+        assert_eq!(cmp_iv(BinOp::Le, above10, Iv::exact(11.0)), None);
+        assert_eq!(
+            cmp_iv(BinOp::Eq, above10, Iv::exact(5.0)).map(|x| x.0),
+            Some(false)
+        );
+        assert_eq!(
+            cmp_iv(BinOp::Ne, above10, Iv::exact(5.0)).map(|x| x.0),
+            Some(true)
+        );
+        assert_eq!(cmp_iv(BinOp::Eq, above10, Iv::exact(50.0)), None);
+        // exact values: margins in the compared units
+        assert_eq!(
+            cmp_iv(BinOp::Ge, Iv::exact(12.0), Iv::exact(10.0)),
+            Some((true, 2.0))
+        );
+        assert_eq!(
+            cmp_iv(BinOp::Le, Iv::exact(12.0), Iv::exact(10.0)),
+            Some((false, -2.0))
+        );
+        assert_eq!(
+            cmp_iv(BinOp::Gt, Iv::exact(10.0), Iv::exact(10.0)).map(|x| x.0),
+            Some(false)
+        );
+    }
+
+    #[test]
+    fn interval_arithmetic_keeps_bounds_and_refuses_nan() {
+        let a = Iv::above(10.0);
+        let two = Iv::exact(2.0);
+        assert_eq!(
+            arith(BinOp::Mul, a, F, two, Dims(0, 0)),
+            Ok(V::Num(Iv::above(20.0), F))
+        );
+        let neg = arith(BinOp::Mul, a, F, Iv::exact(-1.0), Dims(0, 0));
+        assert_eq!(
+            neg,
+            Ok(V::Num(
+                Iv {
+                    lo: f64::NEG_INFINITY,
+                    hi: -10.0
+                },
+                F
+            ))
+        );
+        assert_eq!(
+            arith(BinOp::Sub, a, F, Iv::exact(4.0), F),
+            Ok(V::Num(Iv::above(6.0), F))
+        );
+        // ∞ · 0 would be NaN: refused
+        assert!(arith(BinOp::Mul, a, F, Iv::exact(0.0), Dims(0, 0)).is_err());
+        assert!(arith(BinOp::Div, two, F, Iv::exact(0.0), F).is_err());
+        assert!(arith(
+            BinOp::Mul,
+            Iv::exact(1e308),
+            F,
+            Iv::exact(1e308),
+            Dims(0, 0)
+        )
+        .is_err());
+        // dimensions multiply: 1/f is a time
+        assert_eq!(
+            arith(BinOp::Div, Iv::exact(1.0), Dims(0, 0), Iv::exact(1e9), F),
+            Ok(V::Num(Iv::exact(1e-9), Dims(1, 0)))
+        );
+    }
+
+    #[test]
+    fn values_print_without_nan() {
+        assert_eq!(fmt_v(&Ok(V::Num(Iv::exact(9.123e9), F))), "9.12 GHz");
+        assert_eq!(fmt_v(&Ok(V::Num(Iv::above(1e10), F))), "> 10 GHz");
+        assert_eq!(
+            fmt_v(&Ok(V::Num(
+                Iv {
+                    lo: f64::NEG_INFINITY,
+                    hi: 2.0
+                },
+                Dims(0, 0)
+            ))),
+            "< 2"
+        );
+        assert_eq!(fmt_v(&Err("x".into())), "undefined");
+        assert_eq!(grid(&[1.0, 2.0, 3.0, 4.0], 1.5, 3.0), vec![1.5, 2.0, 3.0]);
+        assert_eq!(grid(&[1.0, 2.0], 1.5, 1.5), vec![1.5]);
+    }
+}

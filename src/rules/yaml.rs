@@ -104,6 +104,9 @@ impl<'de> Deserialize<'de> for Node {
     }
 }
 
+/// Characters of a source line shown under a problem.
+const SHOWN_CHARS: usize = 160;
+
 /// One problem at a place in a file.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Problem {
@@ -132,14 +135,26 @@ impl fmt::Display for Problem {
             self.file, self.line, self.column, self.message
         )?;
         if let Some(src) = &self.source_line {
-            // tabs would move the caret: show them as single spaces
-            let shown: String = src
+            // tabs would move the caret: show them as single spaces; a long line is
+            // shown as a window around the column
+            let chars: Vec<char> = src
                 .chars()
                 .map(|c| if c == '\t' { ' ' } else { c })
                 .collect();
-            let pad = " ".repeat(self.column.saturating_sub(1));
-            let width = self.width.max(1);
-            write!(f, "\n  {shown}\n  {pad}{}", "^".repeat(width))?;
+            let col = self.column.saturating_sub(1).min(chars.len());
+            let start = col.saturating_sub(SHOWN_CHARS / 2);
+            let end = (start + SHOWN_CHARS).min(chars.len());
+            let mut shown: String = chars[start..end].iter().collect();
+            let mut pad = col - start;
+            if start > 0 {
+                shown.insert(0, '…');
+                pad += 1;
+            }
+            if end < chars.len() {
+                shown.push('…');
+            }
+            let width = self.width.clamp(1, SHOWN_CHARS);
+            write!(f, "\n  {shown}\n  {}{}", " ".repeat(pad), "^".repeat(width))?;
         }
         Ok(())
     }
@@ -178,8 +193,8 @@ impl<'a> Source<'a> {
         let e = self.starts.get(line).copied().unwrap_or(self.text.len());
         let raw = self.text.get(s..e)?;
         let t = raw.trim_end_matches(['\n', '\r']);
-        // very long lines are cut so a message stays readable
-        Some(t.chars().take(200).collect())
+        // kept whole up to a bound; Display shows a window around the column
+        Some(t.chars().take(20_000).collect())
     }
 
     /// A problem at byte offset `at` underlining `width` bytes' worth of characters.
@@ -308,4 +323,37 @@ fn clean_message(m: &str) -> String {
     let s = s.lines().next().unwrap_or("").trim();
     let s = s.replace(", set DuplicateKeyPolicy in Options if acceptable", "");
     format!("YAML: {s}")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn problems_show_the_line_and_a_caret() {
+        let src = Source::new("r.yaml", "a: 1\r\nbb: 'srf >= 1nH'\rc: 3\n");
+        let p = src.at_byte(11, 3, "here");
+        assert_eq!(
+            p.to_string(),
+            "r.yaml:2:6: here\n  bb: 'srf >= 1nH'\n       ^^^"
+        );
+        let p = src.at_byte(23, 1, "c");
+        assert_eq!((p.line, p.column), (3, 1));
+        // a long line is shown as a window around the column
+        let long = format!("k: {}X\n", "y".repeat(1000));
+        let src = Source::new("r.yaml", &long);
+        let p = src.at_byte(1003, 1, "x").to_string();
+        let lines: Vec<&str> = p.lines().collect();
+        assert!(lines[1].chars().count() < 200);
+        let caret = lines[2].chars().position(|c| c == '^').unwrap();
+        assert_eq!(lines[1].chars().nth(caret), Some('X'));
+    }
+
+    #[test]
+    fn yaml_messages_lose_the_crate_prefix() {
+        assert_eq!(
+            clean_message("error: line 2 column 1: duplicate mapping key: a, set DuplicateKeyPolicy in Options if acceptable"),
+            "YAML: duplicate mapping key: a"
+        );
+    }
 }
