@@ -577,7 +577,11 @@ fn a_transformer_winding_pair_is_refused_or_fitted_for_what_it_is() {
             // algebra), which the one-port fit must find
             (Some(Ok(s)), _) => {
                 let l = l1 + l2 - 2.0 * mm;
-                assert!((s.model.ls - l).abs() < 0.01 * l, "ls {:e} vs {l:e}", s.model.ls);
+                assert!(
+                    (s.model.ls - l).abs() < 0.01 * l,
+                    "ls {:e} vs {l:e}",
+                    s.model.ls
+                );
                 assert!((s.model.rdc - (r1 + r2)).abs() < 0.01 * (r1 + r2));
             }
             other => panic!("{view}: {other:?}"),
