@@ -6,6 +6,7 @@
 //! - [`compare`]: drift of each part against it, new and missing parts, changed rules;
 //! - [`cache`]: the content-hash cache of judged parts (DESIGN §9);
 //! - [`shard`]: the stable share of the parts a `--shard K/N` run takes;
+//! - [`merge`]: joining shard reports into one verdict;
 //! - [`write`]: crash-safe file replacement used by all of the above.
 //!
 //! Knows nothing of the rules syntax: drift limits are applied through a comparison
@@ -14,6 +15,7 @@
 pub mod cache;
 pub mod compare;
 pub mod document;
+pub mod merge;
 pub mod shard;
 pub mod write;
 
@@ -24,6 +26,7 @@ use crate::verdict::PartReport;
 pub use cache::{Cache, Lookup};
 pub use compare::{apply, moves, rules_changed, Move};
 pub use document::{Baseline, BaselineError, BaselinePart, BASELINE_FORMAT};
+pub use merge::{merge, MergeError};
 pub use shard::{in_shard, shard_index};
 
 /// The value now of one quantity named in a `drift` section, for one part.

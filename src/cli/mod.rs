@@ -347,11 +347,23 @@ fn record(a: &RecordArgs) -> Result<u8, Fatal> {
 }
 
 fn merge(a: &MergeArgs) -> Result<u8, Fatal> {
-    let _ = &a.report;
-    Err(Fatal(format!(
-        "`merge` is not available in this build ({} result files given)",
-        a.results.len()
-    )))
+    // the joining and its refusals live in baseline::merge; here only files and output
+    let mut inputs = Vec::with_capacity(a.results.len());
+    for p in &a.results {
+        let report = crate::baseline::merge::load_report(p)?;
+        inputs.push((p.to_string_lossy().into_owned(), report));
+    }
+    let report = crate::baseline::merge(inputs)?;
+    print_out(&crate::report::terminal(&report, stdout_colour()))?;
+    if let Some(dir) = &a.report {
+        crate::report::write_all(dir, &report).map_err(|e| {
+            Fatal(format!(
+                "cannot write the reports to `{}`: {e}",
+                dir.display()
+            ))
+        })?;
+    }
+    Ok(if report.passed { EXIT_PASS } else { EXIT_FAIL })
 }
 
 fn validate(a: &ValidateArgs) -> Result<u8, Fatal> {

@@ -1,0 +1,464 @@
+//! Hostile input (issue 9, item 3): truncated, corrupted and oversized Touchstone
+//! data, absurd headers, odd frequencies, pathological rules text, and the
+//! `inspect` binary on files it cannot use. Every case must end in a result or a
+//! clear error, quickly, and never in a panic (exit 101) or a stack overflow.
+
+use std::io::{self, BufReader, Read};
+use std::path::PathBuf;
+use std::process::Command;
+use std::time::{Duration, Instant};
+
+use lcgate::figures::{data_checks, view_figures};
+use lcgate::network::{self, Network, PortMap, C64};
+use lcgate::touchstone::{self, lex, read_bytes, read_reader, ReadError};
+
+/// A small v1 2-port file (the Touchstone 1.1 specification's example 4 values).
+const V1_S2P: &[u8] = b"! two-port, RI\n# GHZ S RI R 50.0\n\
+1.0000 0.3926 -0.1211 -0.0003 -0.0021 -0.0003 -0.0021 0.3926 -0.1211\n\
+2.0000 0.3517 -0.3054 -0.0096 -0.0298 -0.0096 -0.0298 0.3517 -0.3054\n\
+10.000 0.3419 0.3336 -0.0134 0.0379 -0.0134 0.0379 0.3419 0.3336\n";
+
+/// A small v2 file with keywords, a per-port reference and a lower-triangle matrix.
+const V2_TS: &[u8] = b"[Version] 2.0\n# GHz S RI R 50\n[Number of Ports] 2\n\
+[Two-Port Data Order] 12_21\n[Reference] 50 75\n[Number of Frequencies] 2\n\
+[Matrix Format] Lower\n[Network Data]\n\
+1 0.1 0.0 0.5 0.1 0.2 0.0\n\
+2 0.2 -0.1 0.4 0.2 0.3 -0.1\n[End]\n";
+
+fn quick<T>(what: &str, limit: Duration, f: impl FnOnce() -> T) -> T {
+    let t = Instant::now();
+    let out = f();
+    assert!(t.elapsed() < limit, "{what} took {:?}", t.elapsed());
+    out
+}
+
+/// An error must say where: the caller's name, a 1-based line and column, and the
+/// Display must start with `name:line:column:`.
+fn assert_located(e: &ReadError, name: &str) {
+    assert_eq!(e.path, name);
+    assert!(e.line >= 1 && e.column >= 1, "{e}");
+    let prefix = format!("{name}:{}:{}: ", e.line, e.column);
+    assert!(e.to_string().starts_with(&prefix), "{e}");
+}
+
+/// Every value in a read network is finite and every reference impedance positive.
+fn assert_finite(net: &Network) {
+    assert!(net.freq.iter().all(|f| f.is_finite()));
+    assert!(net.z0.iter().all(|z| z.is_finite() && *z > 0.0));
+    assert!(net.s.iter().all(|c| c.re.is_finite() && c.im.is_finite()));
+    assert_eq!(net.s.len(), net.points() * net.ports * net.ports);
+}
+
+fn check_any(name: &str, bytes: &[u8]) {
+    match read_bytes(name, bytes) {
+        Ok(ts) => assert_finite(&ts.network),
+        Err(e) => assert_located(&e, name),
+    }
+}
+
+#[test]
+fn every_prefix_of_a_small_file_reads_or_errors_with_a_location() {
+    for (name, file) in [("cut.s2p", V1_S2P), ("cut.ts", V2_TS)] {
+        // the whole file is good (otherwise the loop proves little)
+        assert!(read_bytes(name, file).is_ok(), "{name}");
+        for n in 0..file.len() {
+            check_any(name, &file[..n]);
+        }
+    }
+    // the v2 file without its [End] line is incomplete and must be refused
+    let cut = V2_TS.len() - b"[End]\n".len();
+    let cut_at_data = V2_TS
+        .windows(2)
+        .rposition(|w| w == b"2 ")
+        .expect("second data row");
+    assert!(read_bytes("cut.ts", &V2_TS[..cut_at_data]).is_err());
+    check_any("cut.ts", &V2_TS[..cut]);
+}
+
+#[test]
+fn every_byte_flipped_reads_or_errors_with_a_location() {
+    let values = [
+        0x00u8, 0x0D, b'\n', b'!', b'#', b'[', b'9', b'e', b'-', b'.', 0x7F, 0xFF,
+    ];
+    for (name, file) in [("flip.s2p", V1_S2P), ("flip.ts", V2_TS)] {
+        let mut buf = file.to_vec();
+        for i in 0..file.len() {
+            for &v in &values {
+                buf[i] = v;
+                check_any(name, &buf);
+            }
+            buf[i] = file[i];
+        }
+    }
+}
+
+#[test]
+fn cr_only_line_ends_read_the_same_as_lf() {
+    for (name, file) in [("lf.s2p", V1_S2P), ("lf.ts", V2_TS)] {
+        let lf = read_bytes(name, file).unwrap_or_else(|e| panic!("{e}"));
+        let cr: Vec<u8> = file
+            .iter()
+            .map(|&b| if b == b'\n' { b'\r' } else { b })
+            .collect();
+        let crlf: Vec<u8> = file
+            .iter()
+            .flat_map(|&b| {
+                if b == b'\n' {
+                    vec![b'\r', b'\n']
+                } else {
+                    vec![b]
+                }
+            })
+            .collect();
+        for other in [cr, crlf] {
+            let got = read_bytes(name, &other).unwrap_or_else(|e| panic!("{e}"));
+            assert_eq!(got.network, lf.network, "{name}");
+            assert_eq!(got.version, lf.version);
+        }
+    }
+    // an error after CR-only ends still counts lines correctly
+    let e = read_bytes("cr.s1p", b"# GHz S RI R 50\r1 0.5 0\r2 0.5 x\r").unwrap_err();
+    assert_eq!((e.line, e.column), (3, 7), "{e}");
+}
+
+#[test]
+fn an_overflowing_number_is_refused_with_line_and_column() {
+    let e = read_bytes("big.s1p", b"# GHz S RI R 50\n1 0.5 0\n2 1e999 0\n").unwrap_err();
+    assert_located(&e, "big.s1p");
+    assert_eq!((e.line, e.column), (3, 3), "{e}");
+    // in a frequency and in a reference impedance, too
+    let e = read_bytes("big.s1p", b"# GHz S RI R 50\n1e999 0.5 0\n").unwrap_err();
+    assert_eq!((e.line, e.column), (2, 1), "{e}");
+    let e = read_bytes("big.s1p", b"# GHz S RI R 1e999\n1 0.5 0\n").unwrap_err();
+    assert_eq!(e.line, 1, "{e}");
+    // dB magnitude that overflows after conversion is no better than 1e999
+    let e = read_bytes("big.s1p", b"# GHz S DB R 50\n1 9999 0\n").unwrap_err();
+    assert_located(&e, "big.s1p");
+}
+
+#[test]
+fn absurd_port_counts_are_refused_quickly() {
+    for count in ["0", "99999999999", "18446744073709551616", "-1", "1001"] {
+        let text = format!(
+            "[Version] 2.0\n# GHz S RI R 50\n[Number of Ports] {count}\n\
+             [Number of Frequencies] 1\n[Network Data]\n1 0 0\n[End]\n"
+        );
+        let e = quick(count, Duration::from_secs(1), || {
+            read_bytes("ports.ts", text.as_bytes())
+        })
+        .unwrap_err();
+        assert_located(&e, "ports.ts");
+        assert_eq!(e.line, 3, "{count}: {e}");
+    }
+    // the largest accepted count with a huge declared frequency count must not
+    // reserve memory for it: the data simply ends early
+    let text = format!(
+        "[Version] 2.0\n# GHz S RI R 50\n[Number of Ports] {}\n\
+         [Number of Frequencies] 99999999999\n[Network Data]\n1 0 0\n[End]\n",
+        touchstone::MAX_PORTS
+    );
+    let e = quick("huge nfreq", Duration::from_secs(1), || {
+        read_bytes("ports.ts", text.as_bytes())
+    })
+    .unwrap_err();
+    assert_located(&e, "ports.ts");
+}
+
+#[test]
+fn an_s0p_and_other_bad_extensions_are_refused() {
+    let one_port = b"# GHz S RI R 50\n1 0.5 0\n";
+    assert!(read_bytes("good.s1p", one_port).is_ok());
+    for name in [
+        "zero.s0p",
+        "ZERO.S00P",
+        "huge.s99999999999p",
+        "overflow.s99999999999999999999999p",
+        "many.s1001p",
+    ] {
+        let e = read_bytes(name, one_port).unwrap_err();
+        assert_located(&e, name);
+    }
+    // names that are not of the .sNp form at all are not port counts; the data
+    // decides, and a one-port reads
+    for name in ["neg.s-1p", "none.sp", "dir.s0p/part.s1p"] {
+        check_any(name, one_port);
+    }
+}
+
+#[test]
+fn zero_and_negative_frequencies_are_refused_or_handled() {
+    // a negative frequency is refused with its location
+    let e = read_bytes("neg.s1p", b"# GHz S RI R 50\n-1 0.5 0\n1 0.5 0\n").unwrap_err();
+    assert_eq!((e.line, e.column), (2, 1), "{e}");
+    // a zero frequency (DC point) either reads or is refused; if it reads, the
+    // figures of every view that applies come out finite or undefined
+    for (name, text) in [
+        (
+            "dc.s1p",
+            &b"# GHz S RI R 50\n0 0.5 0\n1 0.4 -0.2\n2 0.3 -0.4\n"[..],
+        ),
+        (
+            "dc.s2p",
+            &b"# GHz S RI R 50\n0 0 0 1 0 1 0 0 0\n1 0.1 -0.2 0.8 -0.3 0.8 -0.3 0.1 -0.2\n"[..],
+        ),
+    ] {
+        match read_bytes(name, text) {
+            Ok(ts) => figures_are_finite_or_undefined(&ts.network),
+            Err(e) => assert_located(&e, name),
+        }
+    }
+}
+
+/// Every view and figure of a network: no panic, and no NaN or infinity anywhere.
+fn figures_are_finite_or_undefined(net: &Network) {
+    let dc = data_checks(net);
+    for v in [dc.passivity_margin, dc.reciprocity_error]
+        .into_iter()
+        .flatten()
+    {
+        assert!(v.is_finite());
+    }
+    for name in network::views_for(net.ports) {
+        let Ok(view) = network::view(net, name, &PortMap::default()) else {
+            continue;
+        };
+        let figs = view_figures(&view, &net.freq, None);
+        for (k, v) in &figs.scalars {
+            assert!(v.is_none_or(f64::is_finite), "{k} = {v:?}");
+        }
+        for (k, c) in &figs.curves {
+            assert!(c.iter().all(|v| v.is_none_or(f64::is_finite)), "{k}");
+        }
+    }
+}
+
+#[test]
+fn degenerate_networks_give_undefined_figures_not_nan() {
+    let freq = vec![-1e9, 0.0, 1e9, 1e9, 5e8];
+    let z0 = vec![50.0, 50.0];
+    let c = |re: f64, im: f64| C64::new(re, im);
+    // open, short, matched, identity (Z singular) and all-zero blocks, at zero,
+    // negative, repeated and falling frequencies
+    let blocks = [
+        [c(1.0, 0.0), c(0.0, 0.0), c(0.0, 0.0), c(1.0, 0.0)],
+        [c(-1.0, 0.0), c(0.0, 0.0), c(0.0, 0.0), c(-1.0, 0.0)],
+        [c(0.0, 0.0), c(1.0, 0.0), c(1.0, 0.0), c(0.0, 0.0)],
+        [c(0.0, 0.0); 4],
+        [
+            c(1e300, -1e300),
+            c(0.0, 1e-300),
+            c(0.0, 1e-300),
+            c(-1e300, 0.0),
+        ],
+    ];
+    let s: Vec<C64> = blocks.iter().flatten().copied().collect();
+    let net = Network {
+        freq,
+        ports: 2,
+        z0,
+        s,
+    };
+    figures_are_finite_or_undefined(&net);
+    // the same degenerate blocks one at a time, on a clean sweep
+    for b in &blocks {
+        let net = Network {
+            freq: vec![1e9, 2e9, 3e9],
+            ports: 2,
+            z0: vec![50.0, 50.0],
+            s: b.iter().chain(b.iter()).chain(b.iter()).copied().collect(),
+        };
+        figures_are_finite_or_undefined(&net);
+    }
+}
+
+/// A reader that counts the bytes handed out, to prove a refusal is streamed.
+struct Counting<R> {
+    inner: R,
+    read: u64,
+}
+
+impl<R: Read> Read for Counting<R> {
+    fn read(&mut self, buf: &mut [u8]) -> io::Result<usize> {
+        let n = self.inner.read(buf)?;
+        self.read += n as u64;
+        Ok(n)
+    }
+}
+
+#[test]
+fn a_gigabyte_line_is_refused_after_reading_just_past_the_cap() {
+    let gib = 1u64 << 30;
+    let mut src = Counting {
+        inner: io::repeat(b'7').take(gib),
+        read: 0,
+    };
+    let e = quick("long line", Duration::from_secs(5), || {
+        read_reader("long.s1p", BufReader::new(&mut src), Some(gib))
+    })
+    .unwrap_err();
+    assert_located(&e, "long.s1p");
+    assert_eq!(e.line, 1, "{e}");
+    assert!(e.to_string().contains("at most"), "{e}");
+    // the reader stopped within a buffer or two of the cap, not at the end
+    let cap = lex::MAX_LINE as u64;
+    assert!(
+        src.read > cap && src.read <= cap + (1 << 20),
+        "read {} bytes for a cap of {cap}",
+        src.read
+    );
+    // a long line after a good header, as a file on disk just above the cap
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("long.s1p");
+    {
+        use std::io::Write;
+        let mut f = io::BufWriter::new(std::fs::File::create(&path).unwrap());
+        f.write_all(b"# GHz S RI R 50\n1 0.5 0\n").unwrap();
+        let chunk = vec![b' '; 1 << 20];
+        for _ in 0..=(lex::MAX_LINE >> 20) {
+            f.write_all(&chunk).unwrap();
+        }
+        f.write_all(b"2 0.5 0\n").unwrap();
+    }
+    let e = quick("long line on disk", Duration::from_secs(5), || {
+        touchstone::read_path(&path)
+    })
+    .unwrap_err();
+    assert_eq!(e.line, 3, "{e}");
+}
+
+/// Run `f` on a thread with a small stack (a quarter of a rayon worker's 2 MiB): a
+/// recursive parser without a depth limit would overflow it on these inputs (which
+/// aborts the process). 512 KiB: the YAML loader overflowed 256 KiB on the
+/// 20,000-deep mappings below, but its use does not grow with depth (200,000 deep
+/// fitted in 512 KiB when tried), so this is headroom, not a depth limit.
+fn on_small_stack<T: Send + 'static>(f: impl FnOnce() -> T + Send + 'static) -> T {
+    std::thread::Builder::new()
+        .stack_size(512 << 10)
+        .spawn(f)
+        .expect("spawn")
+        .join()
+        .expect("no panic")
+}
+
+fn load_rules(text: String) -> Result<lcgate::rules::RuleSet, String> {
+    let dir = tempfile::tempdir().map_err(|e| e.to_string())?;
+    let p = dir.path().join("r.yaml");
+    std::fs::write(&p, text).map_err(|e| e.to_string())?;
+    lcgate::rules::load(&[p]).map_err(|e| e.to_string())
+}
+
+#[test]
+fn pathological_rules_are_refused_fast_on_a_small_stack() {
+    let wrap = |e: &str| format!("parts:\n  - select: x\n    checks:\n      a: '{e}'\n");
+    let cases: Vec<(&str, String)> = vec![
+        (
+            "5000-deep parentheses",
+            wrap(&format!(
+                "{}srf{} > 1GHz",
+                "(".repeat(5000),
+                ")".repeat(5000)
+            )),
+        ),
+        (
+            "deep but short parentheses",
+            wrap(&format!("{}q{} > 1", "(".repeat(2000), ")".repeat(2000))),
+        ),
+        (
+            "5000 unary minus",
+            wrap(&format!("{}q > 1", "-".repeat(5000))),
+        ),
+        ("1000 not", wrap(&format!("{}q > 1", "not ".repeat(1000)))),
+        (
+            "20000 terms",
+            wrap(&format!("{} > 1", vec!["q(band)"; 20_000].join(" + "))),
+        ),
+        (
+            "1000 nested calls",
+            wrap(&format!(
+                "{}1{} > 1",
+                "max(".repeat(1000),
+                ", 1)".repeat(1000)
+            )),
+        ),
+        (
+            "deep YAML mappings",
+            format!("parts: {}1{}\n", "{a: ".repeat(20_000), "}".repeat(20_000)),
+        ),
+        (
+            "10 MB of one scalar",
+            format!("suite: '{}'\nparts: []\n", "x".repeat(10 << 20)),
+        ),
+    ];
+    for (what, text) in cases {
+        let got = quick(what, Duration::from_secs(5), || {
+            on_small_stack(move || load_rules(text))
+        });
+        let e = got.err().unwrap_or_else(|| panic!("{what}: loaded"));
+        assert!(e.contains("r.yaml:"), "{what}: {e}");
+    }
+    // an alias bomb: 9 levels of 9 references each would expand to 9^9 nodes
+    let mut bomb = String::from("a: &a [x, x, x, x, x, x, x, x, x]\n");
+    let mut prev = 'a';
+    for c in 'b'..='j' {
+        let refs = vec![format!("*{prev}"); 9].join(", ");
+        bomb.push_str(&format!("{c}: &{c} [{refs}]\n"));
+        prev = c;
+    }
+    bomb.push_str("parts: []\n");
+    let e = quick("alias bomb", Duration::from_secs(5), || {
+        on_small_stack(move || load_rules(bomb))
+    })
+    .expect_err("the bomb must be refused");
+    assert!(e.contains("r.yaml:"), "{e}");
+}
+
+fn lcgate(args: &[&std::ffi::OsStr]) -> (i32, String) {
+    let out = Command::new(env!("CARGO_BIN_EXE_lcgate"))
+        .args(args)
+        .output()
+        .expect("run lcgate");
+    let code = out.status.code().expect("exited, not killed by a signal");
+    (code, String::from_utf8_lossy(&out.stderr).into_owned())
+}
+
+#[test]
+fn inspect_refuses_unusable_files_with_exit_2() {
+    let dir = tempfile::tempdir().unwrap();
+    let d = dir.path();
+    let write = |name: &str, bytes: &[u8]| -> PathBuf {
+        let p = d.join(name);
+        std::fs::write(&p, bytes).unwrap();
+        p
+    };
+    let cases: Vec<(PathBuf, &str)> = vec![
+        (write("cut.s2p", &V1_S2P[..V1_S2P.len() / 2]), "cut.s2p"),
+        (write("empty.s1p", b""), "empty.s1p"),
+        (write("zero.s0p", b"# GHz S RI R 50\n1 0.5 0\n"), "zero.s0p"),
+        (
+            write("inf.s1p", b"# GHz S RI R 50\n1 1e999 0\n"),
+            "inf.s1p:2:3",
+        ),
+        (write("bin.s2p", &[0u8, 1, 2, 3, 0xFF, 0xFE]), "bin.s2p"),
+        (d.join("missing.s2p"), "missing.s2p"),
+        (d.to_path_buf(), ""),
+    ];
+    for (path, needle) in cases {
+        let (code, err) = lcgate(&[std::ffi::OsStr::new("inspect"), path.as_os_str()]);
+        assert_eq!(code, 2, "{}: {err}", path.display());
+        assert!(err.contains(needle), "{}: {err}", path.display());
+    }
+    // a good file still inspects, also under a name that is not UTF-8
+    let good = write("good.s2p", V1_S2P);
+    assert_eq!(
+        lcgate(&[std::ffi::OsStr::new("inspect"), good.as_os_str()]).0,
+        0
+    );
+    #[cfg(unix)]
+    {
+        use std::os::unix::ffi::OsStrExt;
+        let odd = d.join(std::ffi::OsStr::from_bytes(b"caf\xe9.s2p"));
+        std::fs::write(&odd, V1_S2P).unwrap();
+        let (code, err) = lcgate(&[std::ffi::OsStr::new("inspect"), odd.as_os_str()]);
+        assert_eq!(code, 0, "{err}");
+    }
+}
