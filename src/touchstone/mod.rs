@@ -17,7 +17,7 @@ mod write;
 
 pub use error::{ErrorKind, ReadError};
 pub use read::{check_bytes, read_bytes, read_path, read_reader, MAX_PORTS};
-pub use write::{atomic_write, try_write_string, write_path, write_string, WriteError};
+pub use write::{try_write_string, write_path, write_string, WriteError};
 
 use crate::network::{Network, C64};
 

@@ -11,7 +11,7 @@
 //! inverse of the reader's rule); version-2 values are in ohms and siemens.
 
 use std::fmt::Write as _;
-use std::io::{self, Write as _};
+use std::io;
 use std::path::Path;
 
 use super::{Format, Param, Version, WriteOptions};
@@ -62,35 +62,10 @@ pub fn write_string(net: &Network, opts: &WriteOptions) -> String {
 }
 
 /// Write a network to `path` atomically (temporary file in the same folder, then
-/// rename), as [`write_string`] formats it.
+/// rename, through the project's one [`crate::report::atomic_write`]), as
+/// [`write_string`] formats it.
 pub fn write_path(path: &Path, net: &Network, opts: &WriteOptions) -> io::Result<()> {
-    atomic_write(path, write_string(net, opts).as_bytes())
-}
-
-/// Write `bytes` to `path` so that readers see the old file or the new one, never a
-/// partial one: a temporary file in the same folder, flushed to disk, then renamed.
-pub fn atomic_write(path: &Path, bytes: &[u8]) -> io::Result<()> {
-    let dir = match path.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
-        _ => std::path::PathBuf::from("."),
-    };
-    let name = path
-        .file_name()
-        .ok_or_else(|| io::Error::new(io::ErrorKind::InvalidInput, "no file name"))?
-        .to_string_lossy()
-        .into_owned();
-    let tmp = dir.join(format!(".{name}.tmp{}", std::process::id()));
-    let result = (|| {
-        let mut f = std::fs::File::create(&tmp)?;
-        f.write_all(bytes)?;
-        f.sync_all()?;
-        drop(f);
-        std::fs::rename(&tmp, path)
-    })();
-    if result.is_err() {
-        let _ = std::fs::remove_file(&tmp);
-    }
-    result
+    crate::report::atomic_write(path, write_string(net, opts).as_bytes())
 }
 
 /// Format a network, or say why it cannot be written in the parameter asked for.
