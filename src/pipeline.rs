@@ -233,9 +233,7 @@ pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, R
             baseline::rules_changed(&infos, b),
         ),
     };
-    let mut summary = summarise(&parts);
-    summary.computed = computed;
-    summary.cached = cached;
+    let summary = summarise(&parts);
     let report = RunReport {
         format: REPORT_FORMAT.to_string(),
         tool_version: crate::TOOL_VERSION.to_string(),
@@ -254,6 +252,8 @@ pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, R
         run: RunInfo {
             started: rfc3339_utc(started),
             seconds: clock.elapsed().as_secs_f64(),
+            computed,
+            cached,
         },
     };
     Ok(Outcome { report, notes })
@@ -341,7 +341,7 @@ pub fn fails_part(check: &CheckOutcome, strict: bool) -> bool {
 
 /// Counts per status and of failing checks (`failed_checks`: checks that fail their
 /// part at error level or undecided; `warnings`: warning-level checks that fail).
-/// `computed` and `cached` are left for the caller.
+/// (How many were computed or cached is a fact of the run: `RunInfo`.)
 pub fn summarise(parts: &[PartReport]) -> Summary {
     let mut s = Summary {
         parts: parts.len(),

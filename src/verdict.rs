@@ -160,7 +160,7 @@ pub struct RulesFileInfo {
     pub suite: String,
 }
 
-/// Counts per status, and cache use.
+/// Counts per status.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize, Default)]
 pub struct Summary {
     /// parts in the report
@@ -181,10 +181,6 @@ pub struct Summary {
     pub failed_checks: usize,
     /// failing warning-level checks
     pub warnings: usize,
-    /// parts computed in this run (not taken from the cache)
-    pub computed: usize,
-    /// parts taken from the cache
-    pub cached: usize,
 }
 
 /// The whole run (`lcgate-report/1`). Everything but `run` is deterministic: the same
@@ -218,11 +214,19 @@ pub struct RunReport {
     pub run: RunInfo,
 }
 
-/// When and how long; the only non-deterministic part of a report.
+/// When, how long and how much came from the cache: the only non-deterministic part
+/// of a report (a warm rerun takes parts from the cache that a cold run computed,
+/// with the same verdicts, so the counts live here rather than in `summary`).
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
 pub struct RunInfo {
     /// start time, RFC 3339 UTC
     pub started: String,
     /// wall time in seconds
     pub seconds: f64,
+    /// parts computed in this run (not taken from the cache)
+    #[serde(default)]
+    pub computed: usize,
+    /// parts taken from the cache
+    #[serde(default)]
+    pub cached: usize,
 }

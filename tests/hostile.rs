@@ -462,3 +462,368 @@ fn inspect_refuses_unusable_files_with_exit_2() {
         assert_eq!(code, 0, "{err}");
     }
 }
+
+// ---------------------------------------------------------------------------
+// A hostile library through `check` (the binary): a link loop, a FIFO with a
+// Touchstone name, a file the run may not read, non-UTF-8 names, and the report
+// folder that cannot be written.
+
+use std::os::unix::ffi::OsStrExt;
+use std::os::unix::fs::PermissionsExt;
+use std::os::unix::process::CommandExt;
+use std::path::Path;
+
+use lcgate::verdict::{PartStatus, RunReport};
+
+fn data(rel: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/data")
+        .join(rel)
+}
+
+/// The user the run drops to when this test runs as root: root reads a file whatever
+/// its mode, so a `chmod 000` file is unreadable only to someone else.
+const NOBODY: u32 = 65534;
+
+/// How a `check` ended: exit code (None when killed by a signal), stdout, stderr.
+struct Ran {
+    code: Option<i32>,
+    stdout: String,
+    stderr: String,
+}
+
+/// Run the binary in `cwd`, optionally as `uid`, with output to files (so a full pipe
+/// cannot stall it) and a hang guard: a run still going after two minutes is killed
+/// and the test fails (a FIFO opened for reading blocks forever).
+fn run_guarded(cwd: &Path, args: &[&std::ffi::OsStr], uid: Option<u32>) -> Ran {
+    let logs = tempfile::tempdir().unwrap();
+    let (out_p, err_p) = (logs.path().join("out"), logs.path().join("err"));
+    let mut cmd = Command::new(env!("CARGO_BIN_EXE_lcgate"));
+    cmd.current_dir(cwd)
+        .args(args)
+        .env("NO_COLOR", "1")
+        .stdin(std::process::Stdio::null())
+        .stdout(std::fs::File::create(&out_p).unwrap())
+        .stderr(std::fs::File::create(&err_p).unwrap());
+    if let Some(u) = uid {
+        cmd.uid(u).gid(u);
+    }
+    let mut child = cmd.spawn().expect("spawn lcgate");
+    let start = Instant::now();
+    let status = loop {
+        if let Some(s) = child.try_wait().expect("wait") {
+            break s;
+        }
+        if start.elapsed() > Duration::from_secs(120) {
+            let _ = child.kill();
+            let _ = child.wait();
+            panic!("lcgate {args:?} hangs");
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    };
+    Ran {
+        code: status.code(),
+        stdout: std::fs::read_to_string(&out_p).unwrap_or_default(),
+        stderr: std::fs::read_to_string(&err_p).unwrap_or_default(),
+    }
+}
+
+fn os(s: &str) -> &std::ffi::OsStr {
+    std::ffi::OsStr::new(s)
+}
+
+fn copy_tree(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for e in std::fs::read_dir(from).unwrap() {
+        let e = e.unwrap();
+        let t = to.join(e.file_name());
+        if e.file_type().unwrap().is_dir() {
+            copy_tree(&e.path(), &t);
+        } else {
+            std::fs::copy(e.path(), &t).unwrap();
+        }
+    }
+}
+
+fn chmod(p: &Path, mode: u32) {
+    std::fs::set_permissions(p, std::fs::Permissions::from_mode(mode)).unwrap();
+}
+
+/// True when this process can open a file of mode 000 (root, or CAP_DAC_OVERRIDE).
+fn reads_anything(probe: &Path) -> bool {
+    std::fs::File::open(probe).is_ok()
+}
+
+fn parse_report(dir: &Path) -> RunReport {
+    let text = std::fs::read_to_string(dir.join("report.json")).expect("report.json");
+    serde_json::from_str(&text).expect("report.json parses")
+}
+
+fn status_of<'a>(r: &'a RunReport, path: &str) -> &'a lcgate::verdict::PartReport {
+    r.parts
+        .iter()
+        .find(|p| p.path == path)
+        .unwrap_or_else(|| panic!("no part {path} in {:?}", names(r)))
+}
+
+fn names(r: &RunReport) -> Vec<&str> {
+    r.parts.iter().map(|p| p.path.as_str()).collect()
+}
+
+#[test]
+fn a_hostile_library_is_judged_where_it_can_be_and_never_hangs() {
+    let top = tempfile::tempdir().unwrap();
+    let d = top.path();
+    let lib = d.join("lib");
+    let coils = lib.join("coils");
+    std::fs::create_dir_all(&coils).unwrap();
+    std::fs::create_dir_all(lib.join("caps")).unwrap();
+    copy_tree(&data("lib-small-rules"), &d.join("rules"));
+    let good = std::fs::read(data("lib-small/coils/L1p0n.s2p")).unwrap();
+    std::fs::write(coils.join("L1p0n.s2p"), &good).unwrap();
+    std::fs::copy(data("lib-small/caps/C0p5p.s1p"), lib.join("caps/C0p5p.s1p")).unwrap();
+    // a good coil and a broken one under names that are not UTF-8 (Latin-1 é, 0xFF)
+    std::fs::write(
+        coils.join(std::ffi::OsStr::from_bytes(b"L1p0n_caf\xe9.s2p")),
+        &good,
+    )
+    .unwrap();
+    std::fs::write(
+        coils.join(std::ffi::OsStr::from_bytes(b"L1p0n_bad\xff.s2p")),
+        &good[..good.len() / 3],
+    )
+    .unwrap();
+    // a file nobody but its owner may read
+    let locked = coils.join("L1p0n_locked.s2p");
+    std::fs::write(&locked, &good).unwrap();
+    chmod(&locked, 0o000);
+    // a FIFO with a Touchstone name: opening it for reading would block forever
+    let fifo = coils.join("L1p0n_fifo.s2p");
+    let st = Command::new("mkfifo").arg(&fifo).status().expect("mkfifo");
+    assert!(st.success());
+    // a link loop (a folder linking to its parent) and a link to a good part
+    std::os::unix::fs::symlink("..", coils.join("loop")).unwrap();
+    std::os::unix::fs::symlink("L1p0n.s2p", coils.join("L1p0n_link.s2p")).unwrap();
+    // a folder with a Touchstone name is a folder, not a part
+    std::fs::create_dir_all(lib.join("caps/dir.s1p")).unwrap();
+
+    // as root, run as `nobody` so that the mode-000 file really cannot be read;
+    // everything else must be readable (and the reports writable) by that user
+    let uid = reads_anything(&locked).then_some(NOBODY);
+    let out = d.join("out");
+    std::fs::create_dir_all(&out).unwrap();
+    chmod(&out, 0o777);
+    chmod(d, 0o755);
+
+    let report = out.to_str().unwrap();
+    let base = [
+        "check",
+        "lib",
+        "--rules",
+        "rules",
+        "--no-cache",
+        "--report",
+        report,
+    ];
+
+    // links not followed: the loop is not walked, the link to a part is noted
+    let args: Vec<&std::ffi::OsStr> = base.iter().map(|s| os(s)).collect();
+    let ran = run_guarded(d, &args, uid);
+    assert_eq!(ran.code, Some(1), "{}\n{}", ran.stdout, ran.stderr);
+    let r = parse_report(&out);
+    let bad = "coils/L1p0n_bad\u{FFFD}.s2p";
+    let odd = "coils/L1p0n_caf\u{FFFD}.s2p";
+    assert_eq!(
+        names(&r),
+        [
+            "caps/C0p5p.s1p",
+            "coils/L1p0n.s2p",
+            bad,
+            odd,
+            "coils/L1p0n_locked.s2p"
+        ]
+    );
+    // the good parts are judged (and pass), also under a non-UTF-8 name
+    for p in ["caps/C0p5p.s1p", "coils/L1p0n.s2p", odd] {
+        let part = status_of(&r, p);
+        assert_eq!(part.status, PartStatus::Pass, "{p}: {:?}", part.error);
+        assert!(!part.checks.is_empty(), "{p} was judged");
+    }
+    // each bad one is `unreadable`, with a message naming the file
+    let part = status_of(&r, bad);
+    assert_eq!(part.status, PartStatus::Unreadable);
+    let e = part.error.as_deref().unwrap_or_default();
+    assert!(e.contains("L1p0n_bad\u{FFFD}.s2p:"), "{e}");
+    let part = status_of(&r, "coils/L1p0n_locked.s2p");
+    assert_eq!(part.status, PartStatus::Unreadable);
+    let e = part.error.as_deref().unwrap_or_default();
+    assert!(
+        e.contains("L1p0n_locked.s2p") && e.contains("denied"),
+        "{e}"
+    );
+    // the FIFO and the link are skipped with a note naming them
+    assert!(
+        ran.stderr
+            .contains("coils/L1p0n_fifo.s2p: skipped: not a regular file"),
+        "{}",
+        ran.stderr
+    );
+    assert!(
+        ran.stderr
+            .contains("coils/L1p0n_link.s2p: skipped: symbolic link"),
+        "{}",
+        ran.stderr
+    );
+    assert!(!ran.stderr.contains("internal error"), "{}", ran.stderr);
+    // the terminal summary names the unreadable parts too
+    assert!(ran.stdout.contains("L1p0n_locked.s2p"), "{}", ran.stdout);
+
+    // links followed: the loop becomes an unreadable entry naming it, the link to a
+    // good part is judged, the FIFO is still skipped
+    let mut args = args.clone();
+    args.push(os("--follow-links"));
+    let ran = run_guarded(d, &args, uid);
+    assert_eq!(ran.code, Some(1), "{}\n{}", ran.stdout, ran.stderr);
+    let r = parse_report(&out);
+    let part = status_of(&r, "coils/loop");
+    assert_eq!(part.status, PartStatus::Unreadable);
+    let e = part.error.as_deref().unwrap_or_default();
+    assert!(e.contains("coils/loop") && e.contains("link loop"), "{e}");
+    assert_eq!(
+        status_of(&r, "coils/L1p0n_link.s2p").status,
+        PartStatus::Pass
+    );
+    assert!(
+        ran.stderr
+            .contains("coils/L1p0n_fifo.s2p: skipped: not a regular file"),
+        "{}",
+        ran.stderr
+    );
+
+    // the bad entries removed, the same library passes: they alone failed the run
+    for p in ["L1p0n_locked.s2p", "L1p0n_fifo.s2p", "loop"] {
+        std::fs::remove_file(coils.join(p)).unwrap();
+    }
+    std::fs::remove_file(coils.join(std::ffi::OsStr::from_bytes(b"L1p0n_bad\xff.s2p"))).unwrap();
+    let ran = run_guarded(d, &args, uid);
+    assert_eq!(ran.code, Some(0), "{}\n{}", ran.stdout, ran.stderr);
+}
+
+/// A small good library with its rules in a fresh folder (mode 755, so a dropped
+/// user can read it).
+fn small_library() -> tempfile::TempDir {
+    let top = tempfile::tempdir().unwrap();
+    let d = top.path();
+    std::fs::create_dir_all(d.join("lib/coils")).unwrap();
+    std::fs::copy(
+        data("lib-small/coils/L1p0n.s2p"),
+        d.join("lib/coils/L1p0n.s2p"),
+    )
+    .unwrap();
+    copy_tree(&data("lib-small-rules"), &d.join("rules"));
+    chmod(d, 0o755);
+    top
+}
+
+/// File names in a folder, sorted.
+fn listing(dir: &Path) -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    v.sort();
+    v
+}
+
+const REPORTS: [&str; 4] = ["report.html", "report.json", "report.md", "report.xml"];
+
+#[test]
+fn a_report_folder_that_cannot_be_written_is_exit_2_and_keeps_the_old_reports() {
+    let top = small_library();
+    let d = top.path();
+    let check = |report: &Path, uid: Option<u32>| {
+        let args = [
+            os("check"),
+            os("lib"),
+            os("--rules"),
+            os("rules"),
+            os("--no-cache"),
+            os("-q"),
+            os("--report"),
+            report.as_os_str(),
+        ];
+        run_guarded(d, &args, uid)
+    };
+
+    // below a regular file: the folder cannot even be made
+    std::fs::write(d.join("plain"), "a file, not a folder").unwrap();
+    let below = d.join("plain/out");
+    let ran = check(&below, None);
+    assert_eq!(ran.code, Some(2), "{}", ran.stderr);
+    assert!(
+        ran.stderr.contains(below.to_str().unwrap()),
+        "{}",
+        ran.stderr
+    );
+    assert_eq!(
+        std::fs::read_to_string(d.join("plain")).unwrap(),
+        "a file, not a folder"
+    );
+
+    // a folder holding last night's reports, then made read-only
+    let out = d.join("out");
+    let ran = check(&out, None);
+    assert_eq!(ran.code, Some(0), "{}", ran.stderr);
+    assert_eq!(listing(&out), REPORTS);
+    let before: Vec<Vec<u8>> = REPORTS
+        .iter()
+        .map(|n| std::fs::read(out.join(n)).unwrap())
+        .collect();
+    chmod(&out, 0o555);
+    // root writes into a read-only folder anyway: drop to `nobody`, for whom the
+    // folder (owned by root, mode 555) is read-only
+    let probe = d.join("probe");
+    std::fs::write(&probe, "").unwrap();
+    chmod(&probe, 0o000);
+    let uid = reads_anything(&probe).then_some(NOBODY);
+    let ran = check(&out, uid);
+    chmod(&out, 0o755);
+    assert_eq!(ran.code, Some(2), "{}", ran.stderr);
+    assert!(
+        ran.stderr.contains("cannot write the reports"),
+        "{}",
+        ran.stderr
+    );
+    assert!(
+        ran.stderr
+            .contains(out.join("report.json").to_str().unwrap()),
+        "names the file: {}",
+        ran.stderr
+    );
+    // every old report is whole and nothing else was left there
+    assert_eq!(listing(&out), REPORTS);
+    for (n, old) in REPORTS.iter().zip(&before) {
+        assert_eq!(&std::fs::read(out.join(n)).unwrap(), old, "{n} changed");
+    }
+
+    // a report name taken by a non-empty folder (the rename fails even for root):
+    // exit 2 naming it, the reports written before it whole, no temporary files
+    std::fs::remove_file(out.join("report.html")).unwrap();
+    std::fs::create_dir_all(out.join("report.html/keep")).unwrap();
+    let ran = check(&out, None);
+    assert_eq!(ran.code, Some(2), "{}", ran.stderr);
+    assert!(
+        ran.stderr
+            .contains(out.join("report.html").to_str().unwrap()),
+        "{}",
+        ran.stderr
+    );
+    assert_eq!(listing(&out), REPORTS);
+    let r = parse_report(&out);
+    assert_eq!(names(&r), ["coils/L1p0n.s2p"]);
+    assert!(std::fs::read_to_string(out.join("report.xml"))
+        .unwrap()
+        .trim_end()
+        .ends_with("</testsuites>"));
+    assert!(out.join("report.html/keep").is_dir());
+}

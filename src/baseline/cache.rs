@@ -65,22 +65,26 @@ struct EntryIn {
     part: Judged,
 }
 
-/// A hash of the running executable, so that a rebuilt tool with the same version
-/// number (a developer's build) never trusts results of the previous build. Empty when
-/// the executable cannot be read (the version alone then keys the build).
-fn build_id() -> &'static str {
+/// The identity of the running executable, so that a rebuilt tool with the same
+/// version number (a developer's build) never trusts results of the previous build:
+/// its path, size and modification time. Hashing the bytes would be surer against a
+/// forged time stamp but costs a full read of a large file on every run, which the
+/// warm run cannot afford. Empty when the executable cannot be found (the version alone
+/// then keys the build).
+pub(crate) fn build_id() -> &'static str {
     static ID: OnceLock<String> = OnceLock::new();
     ID.get_or_init(|| {
         std::env::current_exe()
             .ok()
-            .and_then(|p| File::open(p).ok())
-            .and_then(|f| {
-                blake3::Hasher::new()
-                    .update_reader(f)
-                    .ok()
-                    .map(|h| h.finalize())
+            .and_then(|p| {
+                let m = std::fs::metadata(&p).ok()?;
+                let t = m
+                    .modified()
+                    .ok()?
+                    .duration_since(std::time::UNIX_EPOCH)
+                    .ok()?;
+                Some(format!("{}:{}:{}", p.display(), m.len(), t.as_nanos()))
             })
-            .map(|h| h.to_hex().to_string())
             .unwrap_or_default()
     })
 }

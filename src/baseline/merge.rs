@@ -279,7 +279,7 @@ pub fn merge(inputs: Vec<(String, RunReport)>) -> Result<RunReport, MergeError> 
     }
 
     let (computed, cached) = inputs.iter().fold((0, 0), |(c, k), (_, r)| {
-        (c + r.summary.computed, k + r.summary.cached)
+        (c + r.run.computed, k + r.run.cached)
     });
     let started = inputs
         .iter()
@@ -300,14 +300,16 @@ pub fn merge(inputs: Vec<(String, RunReport)>) -> Result<RunReport, MergeError> 
         joined.parts.extend(r.parts);
     }
     joined.parts.sort_by(|a, b| a.path.cmp(&b.path));
-    let mut summary = crate::pipeline::summarise(&joined.parts);
-    summary.computed = computed;
-    summary.cached = cached;
-    joined.summary = summary;
+    joined.summary = crate::pipeline::summarise(&joined.parts);
     joined.passed = crate::pipeline::passed(&joined.parts);
     joined.rules_changed = rules_changed.into_iter().collect();
     joined.shard = None;
-    joined.run = RunInfo { started, seconds };
+    joined.run = RunInfo {
+        started,
+        seconds,
+        computed,
+        cached,
+    };
     Ok(joined)
 }
 
@@ -349,8 +351,8 @@ mod tests {
                 part(p, status)
             })
             .collect();
-        let mut summary = crate::pipeline::summarise(&parts);
-        summary.computed = parts.len();
+        let summary = crate::pipeline::summarise(&parts);
+        let computed = parts.len();
         RunReport {
             format: REPORT_FORMAT.into(),
             tool_version: crate::TOOL_VERSION.into(),
@@ -370,6 +372,8 @@ mod tests {
             run: RunInfo {
                 started: format!("2026-01-0{}T00:00:00Z", shard.map_or(1, |s| s[0])),
                 seconds: shard.map_or(1.0, |s| s[0] as f64),
+                computed,
+                cached: 0,
             },
         }
     }

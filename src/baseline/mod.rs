@@ -6,6 +6,7 @@
 //! - [`compare`]: drift of each part against it, new and missing parts, changed rules;
 //! - [`cache`]: the content-hash cache of judged parts (DESIGN §9);
 //! - [`shard`]: the stable share of the parts a `--shard K/N` run takes;
+//! - [`memo`]: a whole run remembered, repeated when nothing it depends on changed;
 //! - [`merge`]: joining shard reports into one verdict;
 //! - [`write`]: crash-safe file replacement used by all of the above.
 //!
@@ -15,6 +16,7 @@
 pub mod cache;
 pub mod compare;
 pub mod document;
+pub mod memo;
 pub mod merge;
 pub mod shard;
 pub mod write;

@@ -8,6 +8,7 @@ use std::process::ExitCode;
 
 use clap::{Args, Parser, Subcommand};
 
+use crate::baseline::memo::{Remembered, RunInputs, RunMemo};
 use crate::pipeline::{self, CacheChoice, Progress, RunOptions};
 
 pub mod inspect;
@@ -292,6 +293,22 @@ fn check(a: &CheckArgs) -> Result<u8, Fatal> {
         strict: a.strict,
         follow_links: a.walk.follow_links,
     };
+    let colour = stdout_colour();
+    let started = std::time::SystemTime::now();
+    let memo = run_memo(&opts, a, colour, started);
+    if let Some(hit) = memo.as_ref().and_then(RunMemo::lookup) {
+        if !a.walk.quiet {
+            for n in &hit.notes {
+                eprintln!("lcgate: note: {n}");
+            }
+            eprintln!(
+                "lcgate: note: nothing the run depends on changed since the run of {}; its verdict is repeated (--no-cache recomputes)",
+                hit.started
+            );
+        }
+        print_out(&hit.stdout)?;
+        return Ok(hit.exit);
+    }
     let bar = Bar::new(a.walk.quiet);
     let outcome = pipeline::run_with(&opts, &bar);
     bar.0.finish_and_clear();
@@ -302,7 +319,8 @@ fn check(a: &CheckArgs) -> Result<u8, Fatal> {
         }
     }
     let report = &outcome.report;
-    print_out(&crate::report::terminal(report, stdout_colour()))?;
+    let stdout = crate::report::terminal(report, colour);
+    print_out(&stdout)?;
     if let Some(dir) = &a.report {
         std::fs::create_dir_all(dir).map_err(|e| {
             Fatal(format!(
@@ -317,7 +335,54 @@ fn check(a: &CheckArgs) -> Result<u8, Fatal> {
             ))
         })?;
     }
-    Ok(if report.passed { EXIT_PASS } else { EXIT_FAIL })
+    let exit = if report.passed { EXIT_PASS } else { EXIT_FAIL };
+    if let Some(memo) = &memo {
+        let run = Remembered {
+            stdout,
+            notes: outcome.notes.clone(),
+            exit,
+            started: report.run.started.clone(),
+        };
+        // a memo that cannot be stored only costs the next run its shortcut
+        let _ = memo.store(&run, &crate::report::REPORT_FILES);
+    }
+    Ok(exit)
+}
+
+/// The memo of this run (see [`crate::baseline::memo`]), unless the cache is off or the
+/// rules or the library cannot be read (the run itself then says why).
+fn run_memo(
+    opts: &RunOptions,
+    a: &CheckArgs,
+    colour: bool,
+    started: std::time::SystemTime,
+) -> Option<RunMemo> {
+    let dir = match &opts.cache {
+        CacheChoice::Off => return None,
+        CacheChoice::Default => crate::baseline::Cache::default_dir(&opts.library),
+        CacheChoice::Dir(d) => d.clone(),
+    };
+    let rules = crate::rules::load(&opts.rules).ok()?;
+    let walk = crate::library::walk(
+        &opts.library,
+        &crate::library::WalkOptions {
+            follow_links: opts.follow_links,
+        },
+    )
+    .ok()?;
+    let infos = rules.infos();
+    let presentation = format!("colour={colour} quiet={}", a.walk.quiet);
+    let inputs = RunInputs {
+        library: &opts.library,
+        rules: &infos,
+        baseline: opts.baseline.as_deref(),
+        shard: opts.shard,
+        strict: opts.strict,
+        follow_links: opts.follow_links,
+        report_dir: a.report.as_deref(),
+        presentation: &presentation,
+    };
+    Some(RunMemo::new(&dir, &inputs, &walk, started))
 }
 
 fn record(a: &RecordArgs) -> Result<u8, Fatal> {

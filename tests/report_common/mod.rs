@@ -368,8 +368,6 @@ pub fn sample_report(points: usize) -> RunReport {
         new: 1,
         failed_checks: 3,
         warnings: 1,
-        computed: 5,
-        cached: 0,
     };
     RunReport {
         format: "lcgate-report/1".into(),
@@ -397,6 +395,8 @@ pub fn sample_report(points: usize) -> RunReport {
         run: RunInfo {
             started: "2026-03-04T05:06:07Z".into(),
             seconds: 1.25,
+            computed: 5,
+            cached: 0,
         },
     }
 }
