@@ -29,6 +29,9 @@ impl Lcg {
             .wrapping_add(1442695040888963407);
         self.0 >> 11
     }
+    fn one_in(&mut self, k: u64) -> bool {
+        self.next().is_multiple_of(k)
+    }
     fn unit(&mut self) -> f64 {
         self.next() as f64 / (1u64 << 53) as f64
     }
@@ -90,19 +93,19 @@ fn generate(seed: u64, n: usize, format: &str, points: usize, eol: &str) -> Gene
         let per_line = if n <= 2 { n * n } else { n.min(4) };
         for (k, pair) in rec[1..].chunks(2).enumerate() {
             for v in pair {
-                line.push_str(if rng.next() % 4 == 0 { "\t" } else { " " });
+                line.push_str(if rng.one_in(4) { "\t" } else { " " });
                 line.push_str(v);
             }
             if (k + 1) % per_line == 0 {
-                if rng.next() % 5 == 0 {
+                if rng.one_in(5) {
                     line.push_str(" ! trailing comment");
                 }
                 text.push_str(&line);
                 text.push_str(eol);
-                line = String::from(if rng.next() % 2 == 0 { "  " } else { "\t" });
+                line = String::from(if rng.one_in(2) { "  " } else { "\t" });
             }
         }
-        if rng.next() % 9 == 0 {
+        if rng.one_in(9) {
             text.push_str(&format!("! a comment between records{eol}"));
         }
         records.push(rec);
