@@ -278,6 +278,16 @@ pub fn il_min_db(z: &[C64; 4]) -> Option<f64> {
 /// Largest singular value of an N×N row-major block (closed form for N ≤ 2:
 /// σ² = (‖S‖²_F ± √(‖S‖⁴_F − 4|det S|²))/2).
 pub fn sigma_max(s: &[C64], n: usize) -> Option<f64> {
+    // Scaled by the largest entry so that squares cannot overflow (huge but finite
+    // data gave inf, and NaN singular values that nalgebra's sort panics on).
+    let scale = s.iter().map(|c| c.norm()).fold(0.0, f64::max);
+    if !scale.is_finite() || s.len() < n * n {
+        return None;
+    }
+    if scale == 0.0 {
+        return Some(0.0);
+    }
+    let s: Vec<C64> = s.iter().map(|c| c / scale).collect();
     let v = match n {
         1 => s[0].norm(),
         2 => {
@@ -286,13 +296,15 @@ pub fn sigma_max(s: &[C64], n: usize) -> Option<f64> {
             let disc = (fro * fro - 4.0 * det * det).max(0.0);
             ((fro + disc.sqrt()) / 2.0).sqrt()
         }
-        _ => DMatrix::from_row_slice(n, n, s)
-            .singular_values()
-            .iter()
-            .copied()
-            .fold(0.0, f64::max),
+        _ => {
+            let sv = DMatrix::from_row_slice(n, n, &s).singular_values_unordered();
+            if sv.iter().any(|x| !x.is_finite()) {
+                return None;
+            }
+            sv.iter().copied().fold(0.0, f64::max)
+        }
     };
-    fin(v)
+    fin(v * scale)
 }
 
 /// The data checks of every file (DESIGN §6): passivity_margin = 1 − max_f σ_max(S)

@@ -132,7 +132,8 @@ pub fn rising_zero(f: &[f64], y: &[Option<f64>]) -> Option<f64> {
             let (u0, u1) = (f[i] * f[i], f[i + 1] * f[i + 1]);
             let u = u0 + (u1 - u0) * (-p0) / (p1 - p0);
             let x = fin(u.sqrt())?;
-            return Some(x.clamp(f[i], f[i + 1]));
+            // min/max: a grid that is not increasing (bad input) must not panic clamp
+            return Some(x.clamp(f[i].min(f[i + 1]), f[i].max(f[i + 1])));
         }
     }
     None

@@ -548,7 +548,14 @@ pub fn fit_view(
         None => fit_one_port(solver, &f, &yin, drive)?,
     };
     let fit_error = rms_rel(|fi| model.y_drive(fi, drive), &f, &yin);
-    if !fit_error.is_finite() || fit_error > MAX_FIT_ERROR {
+    if !fit_error.is_finite() {
+        // never print NaN or inf into a report
+        return Err(format!(
+            "the π-model fit did not converge to the data (its error is not finite over {} points)",
+            f.len()
+        ));
+    }
+    if fit_error > MAX_FIT_ERROR {
         return Err(format!(
             "the π-model fit did not converge to the data (rms relative error {:.3} over {} points)",
             fit_error,

@@ -77,9 +77,9 @@ pub fn read_reader<R: BufRead>(
     let mut lines = LineReader::new(reader);
     loop {
         let start = p.bytes;
-        match lines.next_line() {
-            Ok(true) => {}
-            Ok(false) => break,
+        let (no, raw) = match lines.next_line() {
+            Ok(Some(l)) => l,
+            Ok(None) => break,
             Err(LineError::Io(e)) => {
                 return Err(p.err(lines.line + 1, 1, ErrorKind::Io(e.to_string())))
             }
@@ -92,10 +92,10 @@ pub fn read_reader<R: BufRead>(
                     },
                 ))
             }
-        }
+        };
         p.line_start = start;
-        p.bytes = start + lines.buf.len() as u64 + 1;
-        p.line(lines.line, &lines.buf)?;
+        p.bytes = start + raw.len() as u64 + 1;
+        p.line(no, raw)?;
     }
     p.finish(lines.line)
 }
@@ -212,6 +212,25 @@ fn same_words(a: &[u8], b: &[u8]) -> bool {
     }
 }
 
+/// Where a line's tokens are, for messages. Columns are found again only when an
+/// error needs one, so the data path keeps no column per value.
+#[derive(Clone, Copy)]
+struct At<'l> {
+    /// the line's content (before any comment)
+    content: &'l [u8],
+    /// 0-based column of `content[0]` in the line
+    off: usize,
+}
+
+impl At<'_> {
+    /// 1-based column of the `k`-th token.
+    fn col(self, k: usize) -> usize {
+        Tokens::new(self.content)
+            .nth(k)
+            .map_or(self.off + 1, |(c, _)| self.off + c + 1)
+    }
+}
+
 struct OptionLine {
     unit: FreqUnit,
     param: Param,
@@ -259,8 +278,8 @@ struct Parser<'a> {
     rec: Vec<f64>,
     rec_line: usize,
     first_rec_start: u64,
+    /// the current line's values (reused)
     vals: Vec<f64>,
-    cols: Vec<usize>,
     prev_f: Option<(f64, usize)>,
     freq: Vec<f64>,
     s: Vec<C64>,
@@ -355,7 +374,6 @@ impl<'a> Parser<'a> {
             rec_line: 0,
             first_rec_start: 0,
             vals: Vec::new(),
-            cols: Vec::new(),
             prev_f: None,
             freq: Vec::new(),
             s: Vec::new(),
@@ -393,6 +411,44 @@ impl<'a> Parser<'a> {
 
     /// One line, terminator removed.
     fn line(&mut self, no: usize, raw: &[u8]) -> Result<(), ReadError> {
+        if matches!(self.stage, Stage::V1 | Stage::V2Net | Stage::V2Noise) {
+            // Data lines take the fast path; a line it declines (anything but
+            // numbers, blanks and a comment) is read again the careful way below.
+            let mut vals = std::mem::take(&mut self.vals);
+            vals.clear();
+            if let Some(end) = lex::scan_numbers(raw, &mut vals) {
+                let res = self.scanned_line(no, raw, end, &vals);
+                self.vals = vals;
+                return res;
+            }
+            self.vals = vals;
+        }
+        self.careful_line(no, raw)
+    }
+
+    /// A line of numbers read by [`lex::scan_numbers`], its content ending at `end`.
+    fn scanned_line(
+        &mut self,
+        no: usize,
+        raw: &[u8],
+        end: usize,
+        vals: &[f64],
+    ) -> Result<(), ReadError> {
+        if end < raw.len() {
+            self.check_comment(no, end + 1, &raw[end + 1..])?;
+        }
+        if vals.is_empty() {
+            return Ok(());
+        }
+        let at = At {
+            content: &raw[..end],
+            off: 0,
+        };
+        self.data_line(no, vals, at)
+    }
+
+    /// Any line: the character checks, then a dispatch on its first character.
+    fn careful_line(&mut self, no: usize, raw: &[u8]) -> Result<(), ReadError> {
         let mut off = 0;
         let mut bytes = raw;
         if no == 1 && bytes.starts_with(BOM) {
@@ -1315,18 +1371,13 @@ impl<'a> Parser<'a> {
             }
             Stage::V2Info(_) | Stage::V1 | Stage::V2Net | Stage::V2Noise => {}
         }
-        // scan the line's numbers into the reusable buffers
+        // scan the line's numbers into the reusable buffer
         let mut vals = std::mem::take(&mut self.vals);
-        let mut cols = std::mem::take(&mut self.cols);
         vals.clear();
-        cols.clear();
         let mut res = Ok(());
         for (c, t) in Tokens::new(content) {
             match self.number(no, off + c + 1, t) {
-                Ok(v) => {
-                    vals.push(v);
-                    cols.push(off + c + 1);
-                }
+                Ok(v) => vals.push(v),
                 Err(e) => {
                     res = Err(e);
                     break;
@@ -1334,23 +1385,22 @@ impl<'a> Parser<'a> {
             }
         }
         if res.is_ok() {
-            res = self.data_line(no, &vals, &cols);
+            res = self.data_line(no, &vals, At { content, off });
         }
         self.vals = vals;
-        self.cols = cols;
         res
     }
 
-    fn data_line(&mut self, no: usize, vals: &[f64], cols: &[usize]) -> Result<(), ReadError> {
+    fn data_line(&mut self, no: usize, vals: &[f64], at: At) -> Result<(), ReadError> {
         let k = vals.len();
         if self.noise_v1_line.is_some() || self.stage == Stage::V2Noise {
-            return self.noise_row(no, vals, cols);
+            return self.noise_row(no, vals, at);
         }
         if !self.rec.is_empty() {
             if k.is_multiple_of(2) {
                 let before = self.rec.len();
                 self.rec.extend_from_slice(vals);
-                return self.check_record(no, cols, before);
+                return self.check_record(no, at, before);
             }
             // an odd count starts a record: the current one must be complete
             match self.n {
@@ -1358,7 +1408,7 @@ impl<'a> Parser<'a> {
                 Some(n) => {
                     return Err(self.err(
                         no,
-                        cols[0],
+                        at.col(0),
                         ErrorKind::TooFewValues {
                             expected: self.rec_len,
                             found: self.rec.len(),
@@ -1371,11 +1421,11 @@ impl<'a> Parser<'a> {
         }
         // a record starts here
         if k.is_multiple_of(2) {
-            return Err(self.err(no, cols[0], ErrorKind::RecordStartEven(k)));
+            return Err(self.err(no, at.col(0), ErrorKind::RecordStartEven(k)));
         }
         let f = vals[0];
         if f < 0.0 {
-            return Err(self.err(no, cols[0], ErrorKind::NegativeFrequency(fmt_raw(f))));
+            return Err(self.err(no, at.col(0), ErrorKind::NegativeFrequency(fmt_raw(f))));
         }
         if let Some((pf, pl)) = self.prev_f {
             if f <= pf {
@@ -1383,11 +1433,11 @@ impl<'a> Parser<'a> {
                 if v1_two_port && (f < pf || k == 5) {
                     if k == 5 {
                         self.noise_v1_line = Some(no);
-                        return self.noise_row(no, vals, cols);
+                        return self.noise_row(no, vals, at);
                     }
                     return Err(self.err(
                         no,
-                        cols[0],
+                        at.col(0),
                         ErrorKind::NoiseRowLength {
                             found: k,
                             hint: format!(
@@ -1409,7 +1459,7 @@ impl<'a> Parser<'a> {
                 };
                 return Err(self.err(
                     no,
-                    cols[0],
+                    at.col(0),
                     ErrorKind::FrequencyNotIncreasing {
                         prev: fmt_raw(pf),
                         prev_line: pl,
@@ -1423,7 +1473,7 @@ impl<'a> Parser<'a> {
             if self.freq.len() as u64 >= want {
                 return Err(self.err(
                     no,
-                    cols[0],
+                    at.col(0),
                     ErrorKind::CountMismatch {
                         keyword: "Number of Frequencies",
                         what: "network data records",
@@ -1439,12 +1489,12 @@ impl<'a> Parser<'a> {
             self.first_rec_start = self.line_start;
         }
         self.rec.extend_from_slice(vals);
-        self.check_record(no, cols, 0)
+        self.check_record(no, at, 0)
     }
 
     /// After values were appended (`before` values were there already): overflow and
     /// completion.
-    fn check_record(&mut self, no: usize, cols: &[usize], before: usize) -> Result<(), ReadError> {
+    fn check_record(&mut self, no: usize, at: At, before: usize) -> Result<(), ReadError> {
         match self.n {
             Some(n) => {
                 let len = self.rec.len();
@@ -1452,7 +1502,7 @@ impl<'a> Parser<'a> {
                     let idx = self.rec_len - before;
                     return Err(self.err(
                         no,
-                        cols[idx.min(cols.len() - 1)],
+                        at.col(idx.min(len - before - 1)),
                         ErrorKind::TooManyValues {
                             expected: self.rec_len,
                             ports: n,
@@ -1469,7 +1519,7 @@ impl<'a> Parser<'a> {
                 if self.rec.len() > max {
                     return Err(self.err(
                         no,
-                        cols[0],
+                        at.col(0),
                         ErrorKind::RecordTooLong {
                             max,
                             ports: MAX_PORTS,
@@ -1634,7 +1684,7 @@ impl<'a> Parser<'a> {
         out.filter(|s| s.iter().all(|c| c.is_finite()))
     }
 
-    fn noise_row(&mut self, no: usize, vals: &[f64], cols: &[usize]) -> Result<(), ReadError> {
+    fn noise_row(&mut self, no: usize, vals: &[f64], at: At) -> Result<(), ReadError> {
         if vals.len() != 5 {
             let hint = match self.noise_v1_line {
                 Some(l) => format!(
@@ -1644,7 +1694,7 @@ impl<'a> Parser<'a> {
             };
             return Err(self.err(
                 no,
-                cols[0],
+                at.col(0),
                 ErrorKind::NoiseRowLength {
                     found: vals.len(),
                     hint,
@@ -1653,13 +1703,13 @@ impl<'a> Parser<'a> {
         }
         let f = vals[0];
         if f < 0.0 {
-            return Err(self.err(no, cols[0], ErrorKind::NegativeFrequency(fmt_raw(f))));
+            return Err(self.err(no, at.col(0), ErrorKind::NegativeFrequency(fmt_raw(f))));
         }
         if let Some((pf, pl)) = self.prev_noise {
             if f <= pf {
                 return Err(self.err(
                     no,
-                    cols[0],
+                    at.col(0),
                     ErrorKind::FrequencyNotIncreasing {
                         prev: fmt_raw(pf),
                         prev_line: pl,
@@ -1673,7 +1723,7 @@ impl<'a> Parser<'a> {
             if self.noise.len() as u64 >= want {
                 return Err(self.err(
                     no,
-                    cols[0],
+                    at.col(0),
                     ErrorKind::CountMismatch {
                         keyword: "Number of Noise Frequencies",
                         what: "noise rows",
