@@ -73,7 +73,24 @@ pub fn read_reader<R: BufRead>(
     reader: R,
     size: Option<u64>,
 ) -> Result<Touchstone, ReadError> {
+    read_lines(name, reader, size, true)
+}
+
+/// [`read_bytes`] with the fast path for data lines turned off: every line goes
+/// through the per-token checks. The result is the same, errors included, only
+/// slower; tests compare the two (tests/touchstone_fast.rs).
+pub fn read_bytes_careful(name: &str, bytes: &[u8]) -> Result<Touchstone, ReadError> {
+    read_lines(name, bytes, Some(bytes.len() as u64), false)
+}
+
+fn read_lines<R: BufRead>(
+    name: &str,
+    reader: R,
+    size: Option<u64>,
+    fast: bool,
+) -> Result<Touchstone, ReadError> {
     let mut p = Parser::new(name, size)?;
+    p.fast = fast;
     let mut lines = LineReader::new(reader);
     loop {
         let start = p.bytes;
@@ -242,6 +259,8 @@ struct OptionLine {
 
 struct Parser<'a> {
     name: &'a str,
+    /// data lines take the fast path ([`lex::scan_numbers`])
+    fast: bool,
     ext: Option<(usize, String)>,
     size: Option<u64>,
     /// bytes consumed so far and at the start of the current line
@@ -341,6 +360,7 @@ impl<'a> Parser<'a> {
         })?;
         Ok(Parser {
             name,
+            fast: true,
             ext,
             size,
             bytes: 0,
@@ -411,7 +431,7 @@ impl<'a> Parser<'a> {
 
     /// One line, terminator removed.
     fn line(&mut self, no: usize, raw: &[u8]) -> Result<(), ReadError> {
-        if matches!(self.stage, Stage::V1 | Stage::V2Net | Stage::V2Noise) {
+        if self.fast && matches!(self.stage, Stage::V1 | Stage::V2Net | Stage::V2Noise) {
             // Data lines take the fast path; a line it declines (anything but
             // numbers, blanks and a comment) is read again the careful way below.
             let mut vals = std::mem::take(&mut self.vals);
