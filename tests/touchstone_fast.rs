@@ -9,6 +9,9 @@
 //!   `read_bytes_careful`) on the fuzz corpus, on every prefix and byte flip of
 //!   generated files and on hand-made bad lines: identical results, errors
 //!   included (same message, line and column);
+//! - the same reader fed block by block with the blocks' lines scanned in parallel
+//!   (`read_blocks`, what `read_path` does for large files), at block sizes that cut
+//!   lines and CR LF pairs anywhere: identical results;
 //! - the standard library's `str::parse` on random grammar-valid numbers: the same
 //!   bits.
 
@@ -16,7 +19,7 @@ use std::io::BufReader;
 use std::path::PathBuf;
 
 use lcgate::network::C64;
-use lcgate::touchstone::{lex, read_bytes, read_bytes_careful, read_reader};
+use lcgate::touchstone::{lex, read_blocks, read_bytes, read_bytes_careful, read_reader};
 use proptest::prelude::*;
 
 /// A small linear congruential generator: reproducible data without a dependency.
@@ -192,12 +195,18 @@ fn generated_files_read_bit_identical_to_a_plain_reader() {
                     let streamed = read_reader(&name, r, Some(g.text.len() as u64));
                     assert_eq!(streamed, Ok(t.clone()), "{name} capacity {cap}");
                 }
+                for block in [1, 3, 64, 1000, 1 << 20] {
+                    let size = Some(g.text.len() as u64);
+                    let blocks = read_blocks(&name, &g.text[..], size, block);
+                    assert_eq!(blocks, Ok(t.clone()), "{name} block {block}");
+                }
             }
         }
     }
 }
 
-/// Fast and careful readings of the same bytes: equal results, errors included.
+/// Fast, careful and block readings of the same bytes: equal results, errors
+/// included.
 #[track_caller]
 fn same_both_ways(name: &str, bytes: &[u8]) {
     let fast = read_bytes(name, bytes);
@@ -208,6 +217,10 @@ fn same_both_ways(name: &str, bytes: &[u8]) {
         "{name}: {:?}",
         String::from_utf8_lossy(bytes)
     );
+    for block in [2, 17, 4096] {
+        let blocks = read_blocks(name, bytes, Some(bytes.len() as u64), block);
+        assert_eq!(blocks, fast, "{name} block {block}");
+    }
 }
 
 #[test]

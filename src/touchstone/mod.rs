@@ -16,7 +16,9 @@ mod read;
 mod write;
 
 pub use error::{ErrorKind, ReadError};
-pub use read::{check_bytes, read_bytes, read_bytes_careful, read_path, read_reader, MAX_PORTS};
+pub use read::{
+    check_bytes, read_blocks, read_bytes, read_bytes_careful, read_path, read_reader, MAX_PORTS,
+};
 pub use write::{try_write_string, write_path, write_string, WriteError};
 
 use crate::network::{Network, C64};
