@@ -484,7 +484,7 @@ struct Px(f64);
 impl std::fmt::Display for Px {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         let t = (self.0 * 10.0).round();
-        if !(t.abs() < 1e15) {
+        if !t.is_finite() || t.abs() >= 1e15 {
             return write!(f, "{:.1}", self.0);
         }
         let sign = if self.0 < 0.0 { "-" } else { "" };

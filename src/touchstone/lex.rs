@@ -75,6 +75,16 @@ impl<R: BufRead> LineReader<R> {
         }
     }
 
+    /// Go on reading `inner` after `line` lines were read elsewhere; `skip_lf`:
+    /// the last of them ended in CR, so an LF first belongs to it.
+    pub fn resume(inner: R, line: usize, skip_lf: bool) -> Self {
+        LineReader {
+            line,
+            skip_lf,
+            ..Self::new(inner)
+        }
+    }
+
     /// The next line without its terminator, with its 1-based number; `Ok(None)` at
     /// the end of the input.
     pub fn next_line(&mut self) -> Result<Option<(usize, &[u8])>, LineError> {

@@ -1,6 +1,14 @@
-//! The streaming Touchstone parser: one pass over the lines, one reusable line
-//! buffer, numbers scanned in place (no allocation per token or per line), each
-//! record converted to S as soon as it is complete, so memory is the result's size.
+//! The streaming Touchstone parser: one pass over the lines, each read in place
+//! from the input buffer, numbers scanned in place (no allocation per token or per
+//! line), each record converted to S as soon as it is complete, so memory is the
+//! result's size.
+//!
+//! Speed (issue 8): a data line is first tried by [`lex::scan_numbers`], which reads
+//! and checks its numbers in one pass; only a line it declines goes through the
+//! careful per-token path, which is the one that words the errors, so messages and
+//! columns are those of the careful path (`read_bytes_careful` is the reference the
+//! tests compare with). Large files go through [`read_blocks`], which runs that scan
+//! over a block's lines in parallel and feeds the same parser in order.
 //!
 //! Rules follow `reference/touchstone.md` (section numbers below refer to it).
 //! Decisions where the specifications are silent or ambiguous:
@@ -29,7 +37,9 @@
 //!   UTF-8 byte-order mark is a warning. Control bytes other than tab are an error.
 
 use std::fs::File;
-use std::io::{BufRead, BufReader};
+use std::io::{self, BufRead, BufReader, Read};
+
+use rayon::prelude::*;
 use std::path::Path;
 
 use super::lex::{self, LineError, LineReader, NumError, Tokens};
@@ -58,7 +68,10 @@ pub fn read_path(path: &Path) -> Result<Touchstone, ReadError> {
         kind: ErrorKind::Io(e.to_string()),
     })?;
     let size = file.metadata().ok().map(|m| m.len());
-    read_reader(&name, BufReader::with_capacity(1 << 18, file), size)
+    match size {
+        Some(s) if s >= PARALLEL_MIN => read_blocks(&name, file, size, BLOCK),
+        _ => read_reader(&name, BufReader::with_capacity(1 << 18, file), size),
+    }
 }
 
 /// Read a Touchstone file held in memory; `name` is used for messages and for the
@@ -73,31 +86,151 @@ pub fn read_reader<R: BufRead>(
     reader: R,
     size: Option<u64>,
 ) -> Result<Touchstone, ReadError> {
+    read_lines(name, reader, size, true)
+}
+
+/// [`read_bytes`] with the fast path for data lines turned off: every line goes
+/// through the per-token checks. The result is the same, errors included, only
+/// slower; tests compare the two (tests/touchstone_fast.rs).
+pub fn read_bytes_careful(name: &str, bytes: &[u8]) -> Result<Touchstone, ReadError> {
+    read_lines(name, bytes, Some(bytes.len() as u64), false)
+}
+
+fn read_lines<R: BufRead>(
+    name: &str,
+    reader: R,
+    size: Option<u64>,
+    fast: bool,
+) -> Result<Touchstone, ReadError> {
     let mut p = Parser::new(name, size)?;
-    let mut lines = LineReader::new(reader);
+    p.fast = fast;
+    let last = p.run(LineReader::new(reader))?;
+    p.finish(last)
+}
+
+/// Files at least this large are read by [`read_blocks`], smaller ones are not
+/// worth a second thread.
+const PARALLEL_MIN: u64 = 8 << 20;
+/// Bytes [`read_path`] reads at a time for [`read_blocks`]: enough lines to share
+/// out, little memory beside the result.
+const BLOCK: usize = 4 << 20;
+/// Lines per parallel task of [`read_blocks`].
+const LINES_PER_TASK: usize = 2048;
+
+/// The reader for large files: reads `block` bytes at a time, runs the fast path
+/// ([`lex::scan_numbers`], most of the work) over the block's lines in parallel,
+/// then hands the lines in order to the same parser as [`read_reader`]. The scan
+/// is a function of a line's bytes alone, so the result is the line-by-line one,
+/// errors included. A line longer than a block (absurd in data) hands the rest of
+/// the input to the line-by-line reader.
+pub fn read_blocks<R: Read>(
+    name: &str,
+    mut src: R,
+    size: Option<u64>,
+    block: usize,
+) -> Result<Touchstone, ReadError> {
+    let block = block.max(1);
+    let mut p = Parser::new(name, size)?;
+    let mut buf: Vec<u8> = Vec::new();
+    let mut lines: Vec<(usize, usize)> = Vec::new();
+    let mut no = 0;
+    // the last block ended in CR: an LF starting the next belongs to it
+    let mut skip_lf = false;
     loop {
-        let start = p.bytes;
-        let (no, raw) = match lines.next_line() {
-            Ok(Some(l)) => l,
-            Ok(None) => break,
-            Err(LineError::Io(e)) => {
-                return Err(p.err(lines.line + 1, 1, ErrorKind::Io(e.to_string())))
+        // a block of new bytes after the carried partial line
+        let eof = fill(&mut src, &mut buf, block)
+            .map_err(|e| p.err(no + 1, 1, ErrorKind::Io(e.to_string())))?;
+        let mut i = 0;
+        if skip_lf && buf.first() == Some(&b'\n') {
+            i = 1;
+        }
+        skip_lf = false;
+        lines.clear();
+        while let Some(q) = memchr::memchr2(b'\n', b'\r', &buf[i..]) {
+            let end = i + q;
+            lines.push((i, end));
+            i = end + 1;
+            if buf[end] == b'\r' {
+                match buf.get(i) {
+                    Some(b'\n') => i += 1,
+                    None => skip_lf = true,
+                    _ => {}
+                }
             }
-            Err(LineError::TooLong(l)) => {
-                return Err(p.err(
-                    l,
-                    1,
-                    ErrorKind::LineTooLong {
-                        limit: lex::MAX_LINE,
-                    },
-                ))
+        }
+        if eof && i < buf.len() {
+            lines.push((i, buf.len()));
+            i = buf.len();
+        }
+        if lines.is_empty() && !eof {
+            // no line end in a whole block: go on line by line from here
+            buf.drain(..i);
+            let rest = io::Cursor::new(std::mem::take(&mut buf)).chain(src);
+            let reader = BufReader::with_capacity(1 << 18, rest);
+            let last = p.run(LineReader::resume(reader, no, skip_lf))?;
+            return p.finish(last);
+        }
+        let scans: Vec<Scanned> = lines
+            .par_chunks(LINES_PER_TASK)
+            .map(|chunk| Scanned::of(&buf, chunk))
+            .collect();
+        for (chunk, scanned) in lines.chunks(LINES_PER_TASK).zip(&scans) {
+            for (&(s, e), pre) in chunk.iter().zip(&scanned.lines) {
+                no += 1;
+                let raw = &buf[s..e];
+                if raw.len() > lex::MAX_LINE {
+                    return Err(p.err(
+                        no,
+                        1,
+                        ErrorKind::LineTooLong {
+                            limit: lex::MAX_LINE,
+                        },
+                    ));
+                }
+                let pre = pre
+                    .as_ref()
+                    .map(|(end, r)| (*end, &scanned.vals[r.clone()]));
+                p.feed(no, raw, pre)?;
             }
-        };
-        p.line_start = start;
-        p.bytes = start + raw.len() as u64 + 1;
-        p.line(no, raw)?;
+        }
+        if eof {
+            return p.finish(no);
+        }
+        buf.drain(..i);
     }
-    p.finish(lines.line)
+}
+
+/// [`lex::scan_numbers`] over some lines of a block: per line, where its content
+/// ends and which of `vals` are its values, or `None` where the scan declined.
+struct Scanned {
+    vals: Vec<f64>,
+    lines: Vec<Option<(usize, std::ops::Range<usize>)>>,
+}
+
+impl Scanned {
+    fn of(buf: &[u8], lines: &[(usize, usize)]) -> Scanned {
+        let mut vals = Vec::new();
+        let lines = lines
+            .iter()
+            .map(|&(s, e)| {
+                let before = vals.len();
+                match lex::scan_numbers(&buf[s..e], &mut vals) {
+                    Some(end) => Some((end, before..vals.len())),
+                    None => {
+                        vals.truncate(before);
+                        None
+                    }
+                }
+            })
+            .collect();
+        Scanned { vals, lines }
+    }
+}
+
+/// Append up to `n` bytes of `src` to `buf`; `Ok(true)` when the input ended first.
+fn fill<R: Read>(src: &mut R, buf: &mut Vec<u8>, n: usize) -> io::Result<bool> {
+    let got = src.take(n as u64).read_to_end(buf)?;
+    Ok(got < n)
 }
 
 /// Read arbitrary bytes under several file names and report how many readings
@@ -242,6 +375,8 @@ struct OptionLine {
 
 struct Parser<'a> {
     name: &'a str,
+    /// data lines take the fast path ([`lex::scan_numbers`])
+    fast: bool,
     ext: Option<(usize, String)>,
     size: Option<u64>,
     /// bytes consumed so far and at the start of the current line
@@ -341,6 +476,7 @@ impl<'a> Parser<'a> {
         })?;
         Ok(Parser {
             name,
+            fast: true,
             ext,
             size,
             bytes: 0,
@@ -409,11 +545,54 @@ impl<'a> Parser<'a> {
         self.version.is_v2()
     }
 
+    /// Feed every line of `lines` to the parser; the number of the last line.
+    fn run<R: BufRead>(&mut self, mut lines: LineReader<R>) -> Result<usize, ReadError> {
+        loop {
+            match lines.next_line() {
+                Ok(Some((no, raw))) => self.feed(no, raw, None)?,
+                Ok(None) => return Ok(lines.line),
+                Err(LineError::Io(e)) => {
+                    return Err(self.err(lines.line + 1, 1, ErrorKind::Io(e.to_string())))
+                }
+                Err(LineError::TooLong(l)) => {
+                    return Err(self.err(
+                        l,
+                        1,
+                        ErrorKind::LineTooLong {
+                            limit: lex::MAX_LINE,
+                        },
+                    ))
+                }
+            }
+        }
+    }
+
+    /// One line with its number and, when [`lex::scan_numbers`] has already read
+    /// it, the result of that scan.
+    fn feed(
+        &mut self,
+        no: usize,
+        raw: &[u8],
+        scanned: Option<(usize, &[f64])>,
+    ) -> Result<(), ReadError> {
+        let start = self.bytes;
+        self.line_start = start;
+        self.bytes = start + raw.len() as u64 + 1;
+        match scanned {
+            Some((end, vals)) if self.takes_fast_path() => self.scanned_line(no, raw, end, vals),
+            _ => self.line(no, raw),
+        }
+    }
+
+    /// Data lines take the fast path; a line it declines (anything but numbers,
+    /// blanks and a comment) is read again the careful way.
+    fn takes_fast_path(&self) -> bool {
+        self.fast && matches!(self.stage, Stage::V1 | Stage::V2Net | Stage::V2Noise)
+    }
+
     /// One line, terminator removed.
     fn line(&mut self, no: usize, raw: &[u8]) -> Result<(), ReadError> {
-        if matches!(self.stage, Stage::V1 | Stage::V2Net | Stage::V2Noise) {
-            // Data lines take the fast path; a line it declines (anything but
-            // numbers, blanks and a comment) is read again the careful way below.
+        if self.takes_fast_path() {
             let mut vals = std::mem::take(&mut self.vals);
             vals.clear();
             if let Some(end) = lex::scan_numbers(raw, &mut vals) {
