@@ -13,8 +13,13 @@ fn replay(target: &str, body: fn(&[u8])) {
     let dir = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
         .join("tests/data/fuzz")
         .join(target);
-    let mut files: Vec<PathBuf> = std::fs::read_dir(&dir)
-        .unwrap_or_else(|e| panic!("{}: {e}", dir.display()))
+    // a target that never failed has no folder (git keeps no empty ones)
+    let entries = match std::fs::read_dir(&dir) {
+        Ok(entries) => entries,
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => return,
+        Err(e) => panic!("{}: {e}", dir.display()),
+    };
+    let mut files: Vec<PathBuf> = entries
         .filter_map(|e| e.ok().map(|e| e.path()))
         .filter(|p| p.is_file())
         .collect();

@@ -1,6 +1,14 @@
-//! The streaming Touchstone parser: one pass over the lines, one reusable line
-//! buffer, numbers scanned in place (no allocation per token or per line), each
-//! record converted to S as soon as it is complete, so memory is the result's size.
+//! The streaming Touchstone parser: one pass over the lines, each read in place
+//! from the input buffer, numbers scanned in place (no allocation per token or per
+//! line), each record converted to S as soon as it is complete, so memory is the
+//! result's size.
+//!
+//! Speed (issue 8): a data line is first tried by [`lex::scan_numbers`], which reads
+//! and checks its numbers in one pass; only a line it declines goes through the
+//! careful per-token path, which is the one that words the errors, so messages and
+//! columns are those of the careful path (`read_bytes_careful` is the reference the
+//! tests compare with). Large files go through [`read_blocks`], which runs that scan
+//! over a block's lines in parallel and feeds the same parser in order.
 //!
 //! Rules follow `reference/touchstone.md` (section numbers below refer to it).
 //! Decisions where the specifications are silent or ambiguous:
