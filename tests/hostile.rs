@@ -234,7 +234,7 @@ fn figures_are_finite_or_undefined(net: &Network) {
 
 #[test]
 fn degenerate_networks_give_undefined_figures_not_nan() {
-    let freq = vec![-1e9, 0.0, 1e9, 1e9, 5e8];
+    let freq = vec![-1e9, 0.0, 1e9, 1e9, 5e8, 2e9, 3e9, 2e9];
     let z0 = vec![50.0, 50.0];
     let c = |re: f64, im: f64| C64::new(re, im);
     // open, short, matched, identity (Z singular) and all-zero blocks, at zero,
@@ -250,6 +250,21 @@ fn degenerate_networks_give_undefined_figures_not_nan() {
             c(0.0, 1e-300),
             c(-1e300, 0.0),
         ],
+        // ill-conditioned: one ulp from the open and the short, and a rank-one S
+        // (I − S nearly singular; Z and Y exist but are huge or tiny)
+        [
+            c(1.0 - f64::EPSILON, 0.0),
+            c(0.0, 0.0),
+            c(0.0, 0.0),
+            c(1.0 - f64::EPSILON, 0.0),
+        ],
+        [
+            c(-1.0 + f64::EPSILON, 0.0),
+            c(0.0, 0.0),
+            c(0.0, 0.0),
+            c(-1.0 + f64::EPSILON, 0.0),
+        ],
+        [c(0.5, 0.0), c(0.5, 0.0), c(0.5, 0.0), c(0.5, 1e-15)],
     ];
     let s: Vec<C64> = blocks.iter().flatten().copied().collect();
     let net = Network {
