@@ -343,6 +343,7 @@ struct FormProblem<'a> {
     f: &'a [f64],
     data: &'a [C64],
     weight: Vec<f64>,
+    points: usize,
     scale: &'a [f64],
 }
 
@@ -362,80 +363,109 @@ impl Problem for FormProblem<'_> {
     }
 
     fn eval(&self, p: &[f64], _full: bool, out: &mut Normal) -> bool {
-        // the loops over parameters with a size known at compile time, unrolled
-        match p.len() {
-            3 => self.accumulate::<3>(p, out),
-            4 => self.accumulate::<4>(p, out),
-            6 => self.accumulate::<6>(p, out),
-            _ => self.accumulate::<N_MAX>(p, out),
-        }
-    }
-}
-
-impl FormProblem<'_> {
-    /// F and the normal equations in one pass over the points, for N ≥ `p.len()`
-    /// parameters (the ones past `p.len()` are held at zero).
-    // index loops over the triangle of JᵀJ read best as such
-    #[allow(clippy::needless_range_loop)]
-    fn accumulate<const N: usize>(&self, p: &[f64], out: &mut Normal) -> bool {
         let n = p.len();
         let x = self.x_of(p);
         // ∂r/∂p_k = x_k·w_i·∂Y/∂x_k (log space); zero where p_k is clamped
-        let mut dx = [0.0; N];
+        let mut dx = [0.0; N_MAX];
         for k in 0..n {
             if p[k].abs() < P_MAX {
                 dx[k] = x[k];
             }
         }
-        let (mut cost, mut points) = (0.0, 0);
-        let mut jtj = [[0.0; N]; N];
-        let mut jtr = [0.0; N];
-        let mut grad = [C64::new(0.0, 0.0); N_MAX];
-        for (i, &fi) in self.f.iter().enumerate() {
-            let w = self.weight[i];
-            let y = self.form.eval(&x[..n], fi, &mut grad[..n]);
-            let e = (y - self.data[i]) * w;
-            if !(e.re.is_finite() && e.im.is_finite()) {
-                return false;
-            }
-            points += usize::from(w > 0.0);
-            cost += e.norm_sqr();
-            let mut jr = [0.0; N];
-            let mut ji = [0.0; N];
-            for k in 0..N {
-                let d = grad[k] * (dx[k] * w);
-                jr[k] = d.re;
-                ji[k] = d.im;
-            }
-            for k in 0..N {
-                jtr[k] += jr[k] * e.re + ji[k] * e.im;
-                for l in 0..=k {
-                    jtj[k][l] += jr[k] * jr[l] + ji[k] * ji[l];
-                }
-            }
-        }
-        *out = Normal::ZERO;
-        out.cost = 0.5 * cost;
-        out.points = points;
-        for k in 0..n {
-            if !(jtr[k].is_finite() && jtj[k][k].is_finite()) {
-                return false;
-            }
-            out.jtr[k] = jtr[k];
-            for l in 0..=k {
-                out.jtj[k][l] = jtj[k][l];
-                out.jtj[l][k] = jtj[k][l];
-            }
-        }
-        true
+        let pass = Pass {
+            x: &x[..n],
+            dx: &dx[..n],
+            f: self.f,
+            data: self.data,
+            weight: &self.weight,
+        };
+        let ok = self.form.normal_equations(&pass, out);
+        out.points = self.points;
+        ok
     }
+}
+
+/// One pass of [`normal_equations`]: the relative residual r_i = w_i·(Y(x, f_i) − d_i)
+/// and its derivatives dx_k·w_i·∂Y/∂x_k.
+pub struct Pass<'a> {
+    /// physical parameters
+    pub x: &'a [f64],
+    /// factor of each column of J (x_k in log space; 0 for a held parameter)
+    pub dx: &'a [f64],
+    /// frequencies
+    pub f: &'a [f64],
+    /// data
+    pub data: &'a [C64],
+    /// weight of each point
+    pub weight: &'a [f64],
+}
+
+/// F, JᵀJ and Jᵀr of a [`Form`] for one [`Pass`]; `points` is left to the caller.
+/// False when anything is not finite.
+pub fn normal_equations<F: Form + ?Sized>(form: &F, pass: &Pass, out: &mut Normal) -> bool {
+    // the loops over parameters with a size known at compile time, unrolled
+    match pass.x.len() {
+        3 => accumulate::<F, 3>(form, pass, out),
+        4 => accumulate::<F, 4>(form, pass, out),
+        6 => accumulate::<F, 6>(form, pass, out),
+        _ => accumulate::<F, N_MAX>(form, pass, out),
+    }
+}
+
+/// [`normal_equations`] for N ≥ `x.len()` parameters (the ones past it are zero).
+// index loops over the triangle of JᵀJ read best as such
+#[allow(clippy::needless_range_loop)]
+fn accumulate<F: Form + ?Sized, const N: usize>(form: &F, pass: &Pass, out: &mut Normal) -> bool {
+    let n = pass.x.len();
+    let mut dx = [0.0; N];
+    dx[..n].copy_from_slice(pass.dx);
+    let mut cost = 0.0;
+    let mut jtj = [[0.0; N]; N];
+    let mut jtr = [0.0; N];
+    let mut grad = [C64::new(0.0, 0.0); N];
+    for (i, &fi) in pass.f.iter().enumerate() {
+        let w = pass.weight[i];
+        let y = form.eval(pass.x, fi, &mut grad[..n]);
+        let e = (y - pass.data[i]) * w;
+        cost += e.norm_sqr();
+        let mut jr = [0.0; N];
+        let mut ji = [0.0; N];
+        for k in 0..N {
+            let d = grad[k] * (dx[k] * w);
+            jr[k] = d.re;
+            ji[k] = d.im;
+        }
+        for k in 0..N {
+            jtr[k] += jr[k] * e.re + ji[k] * e.im;
+            for l in 0..=k {
+                jtj[k][l] += jr[k] * jr[l] + ji[k] * ji[l];
+            }
+        }
+    }
+    // a non-finite term anywhere makes its sums non-finite
+    if !cost.is_finite() {
+        return false;
+    }
+    *out = Normal::ZERO;
+    out.cost = 0.5 * cost;
+    for k in 0..n {
+        if !(jtr[k].is_finite() && jtj[k][k].is_finite()) {
+            return false;
+        }
+        out.jtr[k] = jtr[k];
+        for l in 0..=k {
+            out.jtj[k][l] = jtj[k][l];
+            out.jtj[l][k] = jtj[k][l];
+        }
+    }
+    true
 }
 
 /// 1/|d_i|, zero where d_i is zero or not finite (the point then does not count).
 pub(crate) fn weights(data: &[C64]) -> Vec<f64> {
     data.iter()
         .map(|d| {
-            let a = d.norm();
+            let a = d.norm_sqr().sqrt();
             if a > 0.0 && a.is_finite() {
                 1.0 / a
             } else {
@@ -456,11 +486,14 @@ impl Solver for Dense {
         if x0.len() != form.n_params() || x0.iter().any(|&v| !(v.is_finite() && v > 0.0)) {
             return Err("no usable starting values".into());
         }
+        let weight = weights(data);
+        let points = weight.iter().filter(|&&w| w > 0.0).count();
         let prob = FormProblem {
             form,
             f,
             data,
-            weight: weights(data),
+            weight,
+            points,
             scale: x0,
         };
         let out = minimise(&prob, &vec![0.0; x0.len()], &self.options)?;

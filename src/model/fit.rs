@@ -71,6 +71,12 @@ pub trait Form {
     fn n_params(&self) -> usize;
     /// Y at `f` for parameters `x`; writes ∂Y/∂x_k into `grad` (length `n_params()`).
     fn eval(&self, x: &[f64], f: f64, grad: &mut [C64]) -> C64;
+    /// The least-squares problem of the dense solver at `x` in one pass over the points
+    /// (see [`dense::normal_equations`]). Provided: compiled for each form, so that
+    /// [`Form::eval`] is called directly, and inlined, inside the loop.
+    fn normal_equations(&self, pass: &dense::Pass, out: &mut Normal) -> bool {
+        dense::normal_equations(self, pass, out)
+    }
 }
 
 /// A least-squares solver over log-scaled parameters: minimise Σ |Y(x, f_i) − d_i|²/|d_i|²
@@ -316,10 +322,9 @@ fn tidy_shunt(x: [f64; 3], w_max: f64) -> [f64; 3] {
 
 /// Fit one shunt branch, or none when it is negligible against the series branch.
 fn fit_shunt(solver: &dyn Solver, f: &[f64], ysh: &[C64], ys: &[C64]) -> [f64; 3] {
-    let tiny = ysh
-        .iter()
-        .zip(ys)
-        .all(|(a, b)| a.norm() <= 1e-9 * b.norm() || !a.norm().is_finite());
+    let tiny = ysh.iter().zip(ys).all(|(a, b)| {
+        a.norm_sqr() <= 1e-18 * b.norm_sqr() || !(a.re.is_finite() && a.im.is_finite())
+    });
     if tiny {
         return [0.0, 0.0, 0.0];
     }
@@ -622,7 +627,7 @@ fn fit_branches(
         .iter()
         .chain(&sh1)
         .chain(&sh2)
-        .any(|y| !y.norm().is_finite())
+        .any(|y| !(y.re.is_finite() && y.im.is_finite()))
     {
         return Err("the 2-port admittance is not finite in the fitted band".into());
     }
