@@ -1,5 +1,6 @@
-//! Rule evaluation over a part's figures, and report writing (JSON, JUnit XML,
-//! Markdown, HTML, terminal) of a 200-part run with a baseline.
+//! Rule evaluation over a part's figures, one part judged end to end and a whole
+//! 200-part run, and report writing (JSON, JUnit XML, Markdown, HTML, terminal) of a
+//! 200-part run with a baseline.
 
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use lcgate::network;
@@ -155,9 +156,38 @@ fn reports(c: &mut Criterion) {
     g.finish();
 }
 
+/// One part read, viewed, fitted and judged (`pipeline::judge_part`), and a whole
+/// uncached 200-part run (walk, judge in parallel, baseline comparison).
+fn judging(c: &mut Criterion) {
+    let tmp = tempfile::tempdir().expect("temp dir");
+    let lib = tmp.path().join("lib");
+    let rules_path = tmp.path().join("rules.yaml");
+    std::fs::write(&rules_path, RULES).expect("rules");
+    write_library(&lib, 200, 0x7a11, 0);
+    let set = rules::load(std::slice::from_ref(&rules_path)).expect("rules load");
+    let walk = library::walk(&lib, &library::WalkOptions::default()).expect("walk");
+    let part = walk.parts.first().expect("a part").clone();
+    let mut g = c.benchmark_group("pipeline");
+    g.bench_function("judge_part_2port", |b| {
+        b.iter(|| pipeline::judge_part(black_box(&part), &set, false))
+    });
+    let opts = RunOptions {
+        library: lib,
+        rules: vec![rules_path],
+        cache: CacheChoice::Off,
+        ..RunOptions::default()
+    };
+    g.sample_size(10);
+    g.throughput(Throughput::Elements(walk.parts.len() as u64));
+    g.bench_function("check_200_parts_uncached", |b| {
+        b.iter(|| pipeline::run(black_box(&opts)).expect("run"))
+    });
+    g.finish();
+}
+
 criterion_group! {
     name = benches;
     config = common::quick();
-    targets = rule_evaluation, reports
+    targets = rule_evaluation, judging, reports
 }
 criterion_main!(benches);

@@ -1,11 +1,18 @@
 //! Synthetic data for the side-by-side performance comparison (`benches/compare.sh`).
 //!
-//! `cargo run --release --example make-perf-data -- DIR PARTS [BIG_POINTS]` writes
-//! `DIR/lib/…/part_NNNN.s2p` (PARTS two-port π-model coils, 300 log-spaced points from
-//! 100 MHz to 40 GHz, element values spread over an RF range), `DIR/rules/perf.yaml`
+//! `cargo run --release --example make-perf-data -- DIR PARTS [BIG_POINTS] [--exact]`
+//! writes `DIR/lib/…/part_NNNN.s2p` (PARTS two-port π-model coils, 300 log-spaced
+//! points from 100 MHz to 40 GHz, element values spread over an RF range),
+//! `DIR/rules/perf.yaml`
 //! (a rules file that exercises bands, curves and a drift section), and, when
 //! BIG_POINTS is given, `DIR/big.s4p`: a 4-port of two coupled π-model windings on
 //! BIG_POINTS points (60,000 gives a file of about 60 MB).
+//!
+//! Each coil's branch admittances carry a small ripple (±0.3 %, a few periods over
+//! the sweep, seeded per part), the kind of wobble an EM solver's meshing leaves: the
+//! data are then not exactly a π-model and the fit has to iterate, as it does on real
+//! EM data. `--exact` leaves the ripple out (exact π-model data, where the fit's
+//! analytic starting values already match).
 //!
 //! Deterministic: the same arguments write the same bytes.
 
@@ -52,8 +59,42 @@ fn log_grid(n: usize, lo: f64, hi: f64) -> Vec<f64> {
         .collect()
 }
 
-fn two_port(m: &PiModel, freq: &[f64]) -> Network {
-    let y: Vec<C64> = freq.iter().flat_map(|&f| m.y2(f)).collect();
+/// Amplitude of the relative ripple on each branch admittance.
+const RIPPLE: f64 = 0.003;
+
+/// A ripple factor per point, 1 + RIPPLE·e^{jθ_k}, θ running over 3 to 8 periods
+/// across the sweep from a seeded phase.
+fn ripple(rng: &mut Lcg, n: usize) -> Vec<C64> {
+    let periods = rng.between(3.0, 8.0);
+    let phase = rng.between(0.0, 1.0);
+    (0..n)
+        .map(|k| {
+            let t = std::f64::consts::TAU * (phase + periods * k as f64 / (n - 1) as f64);
+            C64::new(1.0 + RIPPLE * t.cos(), RIPPLE * t.sin())
+        })
+        .collect()
+}
+
+/// The π's 2-port Y from its branches (Y11 = Y_ser + Y_sh1, Y12 = Y21 = −Y_ser,
+/// Y22 = Y_ser + Y_sh2), each branch times its ripple factor when `seed` is given.
+fn two_port(m: &PiModel, freq: &[f64], seed: Option<u64>) -> Network {
+    let n = freq.len();
+    let one = vec![C64::new(1.0, 0.0); n];
+    let [rs, r1, r2] = match seed {
+        Some(s) => {
+            let mut rng = Lcg(s);
+            [0; 3].map(|_| ripple(&mut rng, n))
+        }
+        None => [one.clone(), one.clone(), one],
+    };
+    let y: Vec<C64> = (0..n)
+        .flat_map(|k| {
+            let f = freq[k];
+            let ys = m.series_y(f) * rs[k];
+            let (a, b) = (m.shunt1_y(f) * r1[k], m.shunt2_y(f) * r2[k]);
+            [ys + a, -ys, -ys, ys + b]
+        })
+        .collect();
     Network::from_y(freq.to_vec(), 2, vec![50.0; 2], &y).expect("π-model Y is regular")
 }
 
@@ -100,8 +141,10 @@ drift:
 "#;
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
-    let args: Vec<String> = std::env::args().skip(1).collect();
-    let usage = "usage: make-perf-data DIR PARTS [BIG_POINTS]";
+    let mut args: Vec<String> = std::env::args().skip(1).collect();
+    let exact = args.iter().any(|a| a == "--exact");
+    args.retain(|a| a != "--exact");
+    let usage = "usage: make-perf-data DIR PARTS [BIG_POINTS] [--exact]";
     let dir = Path::new(args.first().ok_or(usage)?);
     let parts: usize = args.get(1).ok_or(usage)?.parse()?;
     let big: Option<usize> = args.get(2).map(|s| s.parse()).transpose()?;
@@ -118,7 +161,8 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     for i in 0..parts {
         let sub = dir.join("lib").join(format!("block{:02}", i / 100));
         std::fs::create_dir_all(&sub)?;
-        let net = two_port(&coil(&mut rng), &freq);
+        let seed = (!exact).then_some(0x7269_7070_u64 ^ ((i as u64) << 20));
+        let net = two_port(&coil(&mut rng), &freq, seed);
         write_path(&sub.join(format!("part_{i:04}.s2p")), &net, &opts)?;
     }
     std::fs::create_dir_all(dir.join("rules"))?;

@@ -234,7 +234,7 @@ fn figures_are_finite_or_undefined(net: &Network) {
 
 #[test]
 fn degenerate_networks_give_undefined_figures_not_nan() {
-    let freq = vec![-1e9, 0.0, 1e9, 1e9, 5e8];
+    let freq = vec![-1e9, 0.0, 1e9, 1e9, 5e8, 2e9, 3e9, 2e9];
     let z0 = vec![50.0, 50.0];
     let c = |re: f64, im: f64| C64::new(re, im);
     // open, short, matched, identity (Z singular) and all-zero blocks, at zero,
@@ -250,6 +250,21 @@ fn degenerate_networks_give_undefined_figures_not_nan() {
             c(0.0, 1e-300),
             c(-1e300, 0.0),
         ],
+        // ill-conditioned: one ulp from the open and the short, and a rank-one S
+        // (I − S nearly singular; Z and Y exist but are huge or tiny)
+        [
+            c(1.0 - f64::EPSILON, 0.0),
+            c(0.0, 0.0),
+            c(0.0, 0.0),
+            c(1.0 - f64::EPSILON, 0.0),
+        ],
+        [
+            c(-1.0 + f64::EPSILON, 0.0),
+            c(0.0, 0.0),
+            c(0.0, 0.0),
+            c(-1.0 + f64::EPSILON, 0.0),
+        ],
+        [c(0.5, 0.0), c(0.5, 0.0), c(0.5, 0.0), c(0.5, 1e-15)],
     ];
     let s: Vec<C64> = blocks.iter().flatten().copied().collect();
     let net = Network {
@@ -826,4 +841,147 @@ fn a_report_folder_that_cannot_be_written_is_exit_2_and_keeps_the_old_reports() 
         .trim_end()
         .ends_with("</testsuites>"));
     assert!(out.join("report.html/keep").is_dir());
+}
+
+// ---------------------------------------------------------------------------
+// Arithmetic safety through `check`: singular matrices, a 0 Hz point, a negative
+// frequency, flat curves, a hole in the band (tests/data/arith/).
+
+/// Every number in a JSON document, with its path.
+fn numbers(v: &serde_json::Value, at: &str, out: &mut Vec<(String, f64)>) {
+    match v {
+        serde_json::Value::Number(n) => out.push((at.to_string(), n.as_f64().unwrap_or(f64::NAN))),
+        serde_json::Value::Array(a) => {
+            for (i, x) in a.iter().enumerate() {
+                numbers(x, &format!("{at}[{i}]"), out);
+            }
+        }
+        serde_json::Value::Object(o) => {
+            for (k, x) in o {
+                numbers(x, &format!("{at}.{k}"), out);
+            }
+        }
+        _ => {}
+    }
+}
+
+#[test]
+fn undefined_figures_are_null_with_a_reason_never_nan() {
+    let out = tempfile::tempdir().unwrap();
+    let (lib, rules) = (data("arith/lib"), data("arith/rules.yaml"));
+    let args = [
+        os("check"),
+        lib.as_os_str(),
+        os("--rules"),
+        rules.as_os_str(),
+        os("--no-cache"),
+        os("--report"),
+        out.path().as_os_str(),
+    ];
+    let ran = run_guarded(out.path(), &args, None);
+    // failures and an unreadable part: exit 1, not 2 (the run was made), not a panic
+    assert_eq!(ran.code, Some(1), "{}\n{}", ran.stdout, ran.stderr);
+    assert!(!ran.stderr.contains("internal error"), "{}", ran.stderr);
+
+    // report.json is valid JSON (NaN and infinities are not) and every number in it
+    // is finite: undefined values are null
+    let text = std::fs::read_to_string(out.path().join("report.json")).unwrap();
+    let doc: serde_json::Value = serde_json::from_str(&text).expect("valid JSON");
+    let mut nums = Vec::new();
+    numbers(&doc, "", &mut nums);
+    assert!(nums.len() > 100, "the report has figures");
+    for (at, x) in &nums {
+        assert!(x.is_finite(), "{at} = {x}");
+    }
+    let r: RunReport = serde_json::from_str(&text).expect("lcgate-report/1");
+    assert_eq!(
+        names(&r),
+        [
+            "caps/C0p5p_flat.s1p",
+            "caps/C0p5p_match.s1p",
+            "caps/C0p5p_neg.s1p",
+            "coils/L1p0n_dc.s2p",
+            "coils/L1p0n_hole.s2p",
+            "coils/flat.s2p",
+            "coils/open.s2p",
+            "coils/short.s2p",
+        ]
+    );
+    let check = |path: &str, id: &str| -> lcgate::verdict::CheckOutcome {
+        let p = status_of(&r, path);
+        p.checks
+            .iter()
+            .find(|c| c.id == id)
+            .unwrap_or_else(|| panic!("{path}: no check {id}"))
+            .clone()
+    };
+    use lcgate::verdict::CheckStatus::{Fail, Pass, Undecided};
+    // an undefined figure makes its check undecided (never pass or fail) with a
+    // reason naming the figure and where
+    let undecided = |path: &str, id: &str, figure: &str| {
+        let c = check(path, id);
+        assert_eq!(c.status, Undecided, "{path} {id}: {c:?}");
+        let why = c.reason.unwrap_or_default();
+        assert!(
+            why.contains(&format!("`{figure}` is undefined")),
+            "{path} {id}: {why}"
+        );
+    };
+
+    // S = I everywhere: Z does not exist and Y = 0, so Z_in = 1/Y_in is undefined;
+    // the π-model cannot be fitted, its parameters are null
+    let open = status_of(&r, "coils/open.s2p");
+    assert_eq!(open.status, PartStatus::Fail);
+    for f in ["ls", "rdc", "cs", "q_peak", "fit_error", "l_low"] {
+        assert_eq!(open.figures.get(f), Some(&None), "open: {f}");
+    }
+    undecided("coils/open.s2p", "q-in-band", "q");
+    undecided("coils/open.s2p", "l-mid", "l");
+    undecided("coils/open.s2p", "q-peak", "q_peak");
+    undecided("coils/open.s2p", "shield", "shield_gain");
+
+    // S = −I everywhere: Y does not exist, so the view does not: the part fails with
+    // the reason, and every report lists it
+    let short = status_of(&r, "coils/short.s2p");
+    assert_eq!(short.status, PartStatus::Fail);
+    let e = short.error.as_deref().unwrap_or_default();
+    assert!(e.contains("single_ended") && e.contains("singular"), "{e}");
+    assert!(
+        ran.stdout
+            .contains("Could not be judged\n  coils/short.s2p"),
+        "{}",
+        ran.stdout
+    );
+    let xml = std::fs::read_to_string(out.path().join("report.xml")).unwrap();
+    assert!(xml.contains("coils/short.s2p :: judge"), "{xml}");
+    let md = std::fs::read_to_string(out.path().join("report.md")).unwrap();
+    assert!(md.contains("coils/short.s2p"));
+
+    // one point with S = I inside the band: the figures there are undefined, the
+    // band check cannot be decided, everything else of the part is judged
+    undecided("coils/L1p0n_hole.s2p", "l-mid", "l");
+    undecided("coils/L1p0n_hole.s2p", "q-in-band", "q");
+    assert_eq!(check("coils/L1p0n_hole.s2p", "q-peak").status, Pass);
+
+    // a 0 Hz point first: l there (X/ω) is undefined, the rest of the coil passes
+    let dc = status_of(&r, "coils/L1p0n_dc.s2p");
+    assert_eq!(dc.status, PartStatus::Pass, "{dc:?}");
+    assert_eq!(dc.figures.get("l_low"), Some(&None));
+
+    // a frequency-independent network: defined, flat figures, judged normally
+    assert_eq!(check("coils/flat.s2p", "q-peak").status, Fail);
+    assert_eq!(
+        status_of(&r, "coils/flat.s2p").figures.get("srf"),
+        Some(&None)
+    );
+
+    // resistors have no reactance: c = −1/(ωX) is a division by zero → undefined
+    undecided("caps/C0p5p_flat.s1p", "c-mid", "c");
+    undecided("caps/C0p5p_match.s1p", "c-mid", "c");
+
+    // a negative frequency is refused with its place
+    let neg = status_of(&r, "caps/C0p5p_neg.s1p");
+    assert_eq!(neg.status, PartStatus::Unreadable);
+    let e = neg.error.as_deref().unwrap_or_default();
+    assert!(e.contains("C0p5p_neg.s1p:4:1:"), "{e}");
 }

@@ -221,7 +221,7 @@ fn html_plots_show_band_marks_and_loss_strip() {
         .expect("part");
     let pd = part.plot.as_ref().expect("plot");
     assert!(
-        pd.freq.len() <= plot::PLOT_POINTS + 40 && pd.freq.len() > 100,
+        pd.freq.len() <= plot::PLOT_POINTS + 40 && pd.freq.len() > plot::PLOT_POINTS / 2,
         "{}",
         pd.freq.len()
     );

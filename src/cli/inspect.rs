@@ -14,6 +14,7 @@
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
+use rayon::prelude::*;
 use serde_json::{json, Map, Value};
 
 use crate::figures::{self, DataChecks, Kind, ViewFigures, MODEL_PARAM_NAMES};
@@ -73,16 +74,22 @@ pub fn inspect(file: &str, net: Network, only: Option<ViewName>) -> Inspection {
         Some(v) => vec![v],
         None => network::views_for(net.ports),
     };
-    let views = names
-        .into_iter()
-        .map(|name| {
-            let r = network::view(&net, name, &PortMap::default())
-                .map(|v| figures::view_figures(&v, &net.freq, None))
-                .map_err(|e| e.to_string());
-            (name, r)
-        })
-        .collect();
-    let checks = figures::data_checks(&net);
+    // the views and the data checks depend only on the network: computed side by side
+    // (a 60,000-point 4-port spends most of its time here), collected in view order
+    let (views, checks) = rayon::join(
+        || {
+            names
+                .into_par_iter()
+                .map(|name| {
+                    let r = network::view(&net, name, &PortMap::default())
+                        .map(|v| figures::view_figures(&v, &net.freq, None))
+                        .map_err(|e| e.to_string());
+                    (name, r)
+                })
+                .collect()
+        },
+        || figures::data_checks(&net),
+    );
     Inspection {
         file: file.to_string(),
         network: net,

@@ -3,6 +3,7 @@
 use std::collections::BTreeMap;
 
 use nalgebra::DMatrix;
+use rayon::prelude::*;
 
 use super::grid::{derivative, derivative_alt, fin, first_fall, peak, rising_zero};
 use super::{DataChecks, Kind, ViewFigures};
@@ -312,20 +313,30 @@ pub fn sigma_max(s: &[C64], n: usize) -> Option<f64> {
 /// reciprocity_error = max_f max_ij |S_ij − S_ji| (§5.4), points, f_min, f_max, ports.
 pub fn data_checks(net: &Network) -> DataChecks {
     let n = net.ports;
+    // per point: σ_max (None when it cannot be had) and the worst |S_ij − S_ji|; the
+    // points are independent and a large N-port's SVDs dominate, so they run in
+    // parallel; max is order-free, so any thread count gives the same result
+    let per_point: Vec<(Option<f64>, f64)> = (0..net.points())
+        .into_par_iter()
+        .with_min_len(1024)
+        .map(|k| {
+            let s = net.s_block(k);
+            let mut r = 0.0f64;
+            for i in 0..n {
+                for j in i + 1..n {
+                    r = r.max((s[i * n + j] - s[j * n + i]).norm());
+                }
+            }
+            (sigma_max(s, n), r)
+        })
+        .collect();
+    let mut ok = n > 0 && net.points() > 0;
     let mut smax: Option<f64> = None;
     let mut recip: Option<f64> = None;
-    let mut ok = n > 0 && net.points() > 0;
-    for k in 0..net.points() {
-        let s = net.s_block(k);
-        match sigma_max(s, n) {
+    for (v, r) in per_point {
+        match v {
             Some(v) => smax = Some(smax.map_or(v, |m| m.max(v))),
             None => ok = false,
-        }
-        let mut r = 0.0f64;
-        for i in 0..n {
-            for j in i + 1..n {
-                r = r.max((s[i * n + j] - s[j * n + i]).norm());
-            }
         }
         recip = Some(recip.map_or(r, |m| m.max(r)));
     }

@@ -6,9 +6,10 @@
 //! forms (series, shunt, whole one-port) behind [`Form`].
 
 use levenberg_marquardt::{LeastSquaresProblem, LevenbergMarquardt, TerminationReason};
-use nalgebra::{storage::Owned, DMatrix, DVector, Dyn};
+use nalgebra::{storage::Owned, DMatrix, DVector, Dyn, Matrix3, Vector3};
 
 use super::circuit::{shunt_y, F_REF};
+use super::dense::{self, minimise, Normal, Options};
 use super::PiModel;
 use crate::network::{View, ViewName, C64};
 
@@ -107,7 +108,7 @@ struct Problem<'a> {
 /// Log-space bound about the start (a factor e¹² ≈ 1.6e5 either way): an element the
 /// data do not determine stops there instead of crawling off, which would cost many
 /// evaluations for nothing.
-const P_MAX: f64 = 12.0;
+pub(crate) const P_MAX: f64 = 12.0;
 
 impl Problem<'_> {
     fn update_x(&mut self) {
@@ -467,12 +468,12 @@ fn fit_shunt(solver: &dyn Solver, f: &[f64], ysh: &[C64], ys: &[C64]) -> [f64; 3
     if let Ok(x) = solver.solve(&ShuntForm, f, ysh, &x0) {
         consider(x, &mut best);
     }
-    // second start for substrates at either resistivity extreme
+    // second start for substrates at either resistivity extreme, only when the first
+    // did not fit
     if best.is_none_or(|(_, e)| e > 1e-3) {
         let wm = TAU * (f[0] * f[f.len() - 1]).sqrt();
-        let quick = Lm { patience: 15 };
         for rsi in [0.1 / (wm * x0[0]), 10.0 / (wm * x0[0])] {
-            if let Ok(x) = quick.solve(&ShuntForm, f, ysh, &[x0[0], x0[1], rsi]) {
+            if let Ok(x) = solver.solve(&ShuntForm, f, ysh, &[x0[0], x0[1], rsi]) {
                 consider(x, &mut best);
             }
         }
@@ -575,34 +576,32 @@ pub fn fit_view(
 /// (a, b, c); each equation weighted by `w`. None when the result is not a physical
 /// branch (a ≤ 0); τ and R_si are kept ≥ 0.
 pub fn levy_shunt(f: &[f64], ysh: &[C64], w: &[f64]) -> Option<[f64; 3]> {
-    let n = f.len();
-    let mut m = DMatrix::<f64>::zeros(2 * n, 3);
-    let mut rhs = DVector::<f64>::zeros(2 * n);
-    for i in 0..n {
+    // the normal equations MᵀM, Mᵀt of the 2n × 3 system, accumulated row pair by row
+    // pair (no tall matrix): rows (0, −ω²w, ωh·w | g·w) and (ωw, 0, −ωg·w | h·w)
+    let mut mtm = Matrix3::<f64>::zeros();
+    let mut mtr = Vector3::<f64>::zeros();
+    for i in 0..f.len() {
         let om = TAU * f[i];
         let (g, h) = (ysh[i].re, ysh[i].im);
         let wi = if w[i].is_finite() { w[i] } else { 0.0 };
-        m[(2 * i, 1)] = -om * om * wi;
-        m[(2 * i, 2)] = om * h * wi;
-        rhs[2 * i] = g * wi;
-        m[(2 * i + 1, 0)] = om * wi;
-        m[(2 * i + 1, 2)] = -om * g * wi;
-        rhs[2 * i + 1] = h * wi;
+        for (row, t) in [
+            (Vector3::new(0.0, -om * om * wi, om * h * wi), g * wi),
+            (Vector3::new(om * wi, 0.0, -om * g * wi), h * wi),
+        ] {
+            mtm += row * row.transpose();
+            mtr += row * t;
+        }
     }
+    // scaled to unit column norms: 3×3, cheap, and well enough conditioned then
     let mut sc = [0.0; 3];
     for (k, s) in sc.iter_mut().enumerate() {
-        *s = m.column(k).norm();
+        *s = mtm[(k, k)].sqrt();
         if !(*s > 0.0 && s.is_finite()) {
             return None;
         }
-        let inv = 1.0 / *s;
-        m.column_mut(k).scale_mut(inv);
     }
-    // normal equations of the column-scaled system: 3×3, cheap, and well enough
-    // conditioned once every column has unit norm
-    let mtm = m.transpose() * &m;
-    let mtr = m.transpose() * &rhs;
-    let sol = mtm.lu().solve(&mtr)?;
+    let d = Matrix3::from_diagonal(&Vector3::new(1.0 / sc[0], 1.0 / sc[1], 1.0 / sc[2]));
+    let sol = (d * mtm * d).lu().solve(&(d * mtr))?;
     let (a, b, c) = (sol[0] / sc[0], sol[1] / sc[1], sol[2] / sc[2]);
     if !(a > 0.0 && a.is_finite() && b.is_finite() && c.is_finite()) {
         return None;
@@ -660,79 +659,85 @@ impl Whole for Projected<'_> {
     }
 }
 
+/// A [`Whole`] problem in log-scaled parameters for the dense solver, the Jacobian by
+/// forward differences (cheap for three parameters, but n + 1 residual evaluations:
+/// so trial points get F alone).
 struct WholeProblem<'a> {
     whole: &'a dyn Whole,
-    scale: Vec<f64>,
-    p: DVector<f64>,
+    scale: &'a [f64],
     m: usize,
 }
 
 impl WholeProblem<'_> {
-    fn x_of(&self, p: &DVector<f64>) -> Vec<f64> {
+    fn x_of(&self, p: &[f64]) -> Vec<f64> {
         (0..self.scale.len())
             .map(|k| self.scale[k] * p[k].clamp(-P_MAX, P_MAX).exp())
             .collect()
     }
+    fn residuals(&self, p: &[f64]) -> Option<Vec<f64>> {
+        let r = self.whole.residuals(&self.x_of(p))?;
+        (r.len() == self.m && r.iter().all(|v| v.is_finite())).then_some(r)
+    }
 }
 
-impl LeastSquaresProblem<f64, Dyn, Dyn> for WholeProblem<'_> {
-    type ResidualStorage = Owned<f64, Dyn>;
-    type JacobianStorage = Owned<f64, Dyn, Dyn>;
-    type ParameterStorage = Owned<f64, Dyn>;
-    fn set_params(&mut self, p: &DVector<f64>) {
-        self.p.copy_from(p);
+impl dense::Problem for WholeProblem<'_> {
+    fn n(&self) -> usize {
+        self.scale.len()
     }
-    fn params(&self) -> DVector<f64> {
-        self.p.clone()
-    }
-    fn residuals(&self) -> Option<DVector<f64>> {
-        let r = self.whole.residuals(&self.x_of(&self.p))?;
-        (r.len() == self.m).then(|| DVector::from_vec(r))
-    }
-    fn jacobian(&self) -> Option<DMatrix<f64>> {
-        // forward differences in log space: cheap for three parameters
-        let r0 = self.whole.residuals(&self.x_of(&self.p))?;
-        let mut j = DMatrix::zeros(self.m, self.p.len());
-        for k in 0..self.p.len() {
-            let h = 1e-7;
-            let mut q = self.p.clone();
+    fn eval(&self, p: &[f64], full: bool, out: &mut Normal) -> bool {
+        let Some(r0) = self.residuals(p) else {
+            return false;
+        };
+        out.cost = 0.5 * r0.iter().map(|v| v * v).sum::<f64>();
+        out.points = self.m / 2;
+        if !full {
+            return true;
+        }
+        let n = p.len();
+        let h = 1e-7;
+        let mut cols: Vec<Vec<f64>> = Vec::with_capacity(n);
+        for k in 0..n {
+            let mut q = p.to_vec();
             q[k] += h;
-            let r1 = self.whole.residuals(&self.x_of(&q))?;
-            if r1.len() != self.m {
-                return None;
-            }
-            for i in 0..self.m {
-                j[(i, k)] = (r1[i] - r0[i]) / h;
+            let Some(r1) = self.residuals(&q) else {
+                return false;
+            };
+            cols.push(r1.iter().zip(&r0).map(|(a, b)| (a - b) / h).collect());
+        }
+        for k in 0..n {
+            out.jtr[k] = cols[k].iter().zip(&r0).map(|(a, b)| a * b).sum();
+            for l in 0..=k {
+                let v = cols[k].iter().zip(&cols[l]).map(|(a, b)| a * b).sum();
+                out.jtj[k][l] = v;
+                out.jtj[l][k] = v;
             }
         }
-        Some(j)
+        true
+    }
+    fn full_is_cheap(&self) -> bool {
+        false
     }
 }
 
-/// Levenberg–Marquardt on a [`Whole`] problem from `x0` (every entry > 0); the
-/// parameters where it stopped, or None when it failed.
+/// The dense Levenberg–Marquardt on a [`Whole`] problem from `x0` (every entry > 0);
+/// the parameters where it stopped, or None when it failed.
 fn lm_closure(whole: &dyn Whole, x0: &[f64], m: usize) -> Option<Vec<f64>> {
     if x0.iter().any(|&v| !(v.is_finite() && v > 0.0)) {
         return None;
     }
     let prob = WholeProblem {
         whole,
-        scale: x0.to_vec(),
-        p: DVector::zeros(x0.len()),
+        scale: x0,
         m,
     };
-    let (prob, report) = LevenbergMarquardt::new()
-        .with_ftol(1e-10)
-        .with_xtol(1e-8)
-        .with_gtol(1e-12)
-        .with_patience(20)
-        .minimize(prob);
-    match report.termination {
-        TerminationReason::User(_)
-        | TerminationReason::Numerical(_)
-        | TerminationReason::WrongDimensions(_) => None,
-        _ => Some(prob.x_of(&prob.p)),
-    }
+    let opt = Options {
+        ftol: 1e-10,
+        xtol: 1e-8,
+        max_evals: 40,
+        ..Options::default()
+    };
+    let (p, _) = minimise(&prob, &vec![0.0; x0.len()], &opt).ok()?;
+    Some(prob.x_of(&p[..x0.len()]))
 }
 
 /// The π's branches from a 2-port's Y, separately: series from −Y12, shunts from
@@ -823,12 +828,9 @@ fn fit_one_port(
     let mut best: Option<(Vec<f64>, f64)> = None;
     // the regression start, then the two resistivity extremes if that one is poor
     let r0 = 1.0 / (wm * sh[0]);
-    for (k, rsi) in [sh[2], 0.1 * r0, 10.0 * r0].into_iter().enumerate() {
+    for rsi in [sh[2], 0.1 * r0, 10.0 * r0] {
         let mut x0 = x0;
         x0[5] = rsi;
-        // the projected start is close: a short polish; other starts get less still
-        let quick = Lm { patience: 8 };
-        let solver: &dyn Solver = if k == 0 { solver } else { &quick };
         if let Ok(x) = solver.solve(&OnePortForm, f, yin, &x0) {
             let mut g = [C64::new(0.0, 0.0); 6];
             let e = rms_rel(|fi| OnePortForm.eval(&x, fi, &mut g), f, yin);

@@ -6,10 +6,12 @@
 //! Knows nothing of files or rules.
 
 pub mod circuit;
+pub mod dense;
 pub mod fit;
 pub mod loss;
 
 pub use circuit::shunt_y;
+pub use dense::Dense;
 pub use fit::{Drive, Fitted, Lm, Solver};
 
 /// What limits Q at a frequency (DESIGN §6.1).
@@ -137,7 +139,7 @@ impl PiModel {
 /// When the fit is refused the scalars and curves are present but null and
 /// `figs.loss` carries the reason.
 pub fn analyse(view: &View, figs: &mut ViewFigures) {
-    analyse_with(view, figs, &Lm::default());
+    analyse_with(view, figs, &Dense::default());
 }
 
 /// [`analyse`] with a chosen least-squares solver.

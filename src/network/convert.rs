@@ -18,8 +18,6 @@
 //! solve matrix is singular (relative pivot below [`SINGULAR_TOL`]) gives `None`:
 //! e.g. Z of a pure series element, whose I − S is singular.
 
-use nalgebra::DMatrix;
-
 use super::C64;
 
 /// A solve matrix is treated as singular when its smallest LU pivot (or, for the
@@ -39,31 +37,69 @@ fn all_finite(v: &[C64]) -> bool {
     v.iter().all(|c| c.re.is_finite() && c.im.is_finite())
 }
 
-/// Solve A X = B for N×N row-major A, B. None when A is (numerically) singular.
+/// Solve A X = B for N×N row-major A, B by Gaussian elimination with partial
+/// pivoting (Golub & Van Loan, *Matrix Computations*, §3.4). None when A is
+/// (numerically) singular: a pivot, i.e. a diagonal entry of U, at or below
+/// `SINGULAR_TOL · max|a_ij|`. Written out rather than through a general matrix type
+/// because it runs once per sweep point per conversion, and the blocks are small:
+/// no allocation but the result.
 fn solve(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
-    let am = DMatrix::from_row_slice(n, n, a);
-    let bm = DMatrix::from_row_slice(n, n, b);
-    let scale = am.iter().map(|c| c.norm()).fold(0.0, f64::max);
-    if !(scale.is_finite()) || scale == 0.0 {
+    let scale = a.iter().map(|c| c.norm()).fold(0.0, f64::max);
+    if !(scale.is_finite()) || scale == 0.0 || a.len() != n * n || b.len() != n * n {
         return None;
     }
-    let lu = am.lu();
-    let u = lu.u();
-    let min_pivot = (0..n)
-        .map(|i| u[(i, i)].norm())
-        .fold(f64::INFINITY, f64::min);
-    if min_pivot <= SINGULAR_TOL * scale {
-        return None;
-    }
-    let x = lu.solve(&bm)?;
-    // back to row-major
-    let mut out = Vec::with_capacity(n * n);
-    for i in 0..n {
-        for j in 0..n {
-            out.push(x[(i, j)]);
+    let zero = C64::new(0.0, 0.0);
+    let mut a = a.to_vec();
+    let mut x = b.to_vec();
+    for c in 0..n {
+        let mut p = c;
+        for r in c + 1..n {
+            if a[r * n + c].norm() > a[p * n + c].norm() {
+                p = r;
+            }
+        }
+        let pivot = a[p * n + c].norm();
+        if pivot.is_nan() || pivot <= SINGULAR_TOL * scale {
+            return None;
+        }
+        if p != c {
+            for j in 0..n {
+                a.swap(p * n + j, c * n + j);
+                x.swap(p * n + j, c * n + j);
+            }
+        }
+        let inv = one() / a[c * n + c];
+        for r in c + 1..n {
+            let f = a[r * n + c] * inv;
+            if f == zero {
+                continue;
+            }
+            for j in c + 1..n {
+                let v = a[c * n + j];
+                a[r * n + j] -= f * v;
+            }
+            for j in 0..n {
+                let v = x[c * n + j];
+                x[r * n + j] -= f * v;
+            }
         }
     }
-    all_finite(&out).then_some(out)
+    for c in (0..n).rev() {
+        let inv = one() / a[c * n + c];
+        for j in 0..n {
+            x[c * n + j] *= inv;
+        }
+        for r in 0..c {
+            let f = a[r * n + c];
+            if f != zero {
+                for j in 0..n {
+                    let v = x[c * n + j];
+                    x[r * n + j] -= f * v;
+                }
+            }
+        }
+    }
+    all_finite(&x).then_some(x)
 }
 
 /// Solve A X = B for 2×2 row-major by Cramer's rule.
@@ -104,7 +140,8 @@ fn eye_plus(m: &[C64], n: usize, sign: f64) -> Vec<C64> {
 fn scale_dd(m: &mut [C64], n: usize, z0: &[f64], pow: f64) {
     for i in 0..n {
         for j in 0..n {
-            m[i * n + j] *= (z0[i] * z0[j]).sqrt().powf(pow);
+            let d = (z0[i] * z0[j]).sqrt();
+            m[i * n + j] *= if pow > 0.0 { d } else { 1.0 / d };
         }
     }
 }

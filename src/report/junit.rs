@@ -2,7 +2,8 @@
 //! of every part as a test. One testsuite per rules file with one testcase per part and
 //! check (`path :: check-id`); a failing or undecided check is a `failure` whose message
 //! carries the values put in and the hint. Files that could not be read are `error`s in
-//! their own suite, parts no rule selects are `skipped` in theirs, and drift against the
+//! their own suite, parts that were read but could not be judged (a view that does not
+//! exist, a sidecar that does not load) are `error`s in another, parts no rule selects are `skipped` in theirs, and drift against the
 //! baseline and missing parts go in a suite of their own. No times or timestamps are
 //! written: identical inputs give identical bytes.
 
@@ -15,6 +16,8 @@ use super::{is_failure, is_warning, rules_order, show_change, show_value, suite_
 
 /// Suite of the files that could not be read.
 pub const SUITE_UNREADABLE: &str = "files that could not be read";
+/// Suite of the parts read but not judged (their `error`: a view, a sidecar).
+pub const SUITE_UNJUDGED: &str = "parts that could not be judged";
 /// Suite of the parts no rule group selects.
 pub const SUITE_UNCHECKED: &str = "parts no rule selects";
 /// Suite of drift and missing parts.
@@ -55,6 +58,28 @@ pub fn junit(r: &RunReport) -> String {
             st.set_type("unreadable");
             st.set_description(why);
             let mut tc = TestCase::new(format!("{} :: read", p.path), st);
+            tc.set_classname(p.path.as_str());
+            suite.add_test_case(tc);
+        }
+        report.add_test_suite(suite);
+    }
+
+    // a part that was read but whose view or sidecar failed may have no check at all;
+    // without its own case it would fail the run and appear nowhere in the XML
+    let unjudged: Vec<_> = r
+        .parts
+        .iter()
+        .filter(|p| p.status != PartStatus::Unreadable)
+        .filter_map(|p| Some((p, p.error.as_deref()?)))
+        .collect();
+    if !unjudged.is_empty() {
+        let mut suite = TestSuite::new(SUITE_UNJUDGED);
+        for (p, why) in unjudged {
+            let mut st = TestCaseStatus::non_success(NonSuccessKind::Error);
+            st.set_message(first_line(why));
+            st.set_type("error");
+            st.set_description(why);
+            let mut tc = TestCase::new(format!("{} :: judge", p.path), st);
             tc.set_classname(p.path.as_str());
             suite.add_test_case(tc);
         }

@@ -112,6 +112,24 @@ pub fn terminal(r: &RunReport, colour: bool) -> String {
         }
     }
 
+    // read, but a view or sidecar failed: such a part may have no failing check to
+    // be listed under, yet it fails the run
+    let unjudged: Vec<(&PartReport, &str)> = r
+        .parts
+        .iter()
+        .filter(|p| p.status != PartStatus::Unreadable)
+        .filter_map(|p| Some((p, p.error.as_deref()?)))
+        .collect();
+    if !unjudged.is_empty() {
+        section(&mut o, &st, "Could not be judged");
+        for (p, why) in unjudged {
+            let _ = writeln!(o, "  {}", st.bad(&p.path));
+            for line in why.lines() {
+                let _ = writeln!(o, "      {line}");
+            }
+        }
+    }
+
     if r.baseline.is_some() {
         let moves = drift_listed(r);
         if !moves.is_empty() {

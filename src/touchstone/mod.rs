@@ -2,9 +2,11 @@
 //! specifications). Errors name `path:line:column`, what was expected and what was
 //! found. Y, Z, H and G data are converted to S on reading.
 //!
-//! Layout: [`lex`] splits lines (LF, CRLF, CR) and scans numbers; `read` is the
-//! streaming parser (one pass, one reusable line buffer, no allocation per token);
-//! `write` formats a [`Network`] back into either version. The rules and their
+//! Layout: [`lex`] splits lines (LF, CRLF, CR) and scans numbers, with a one-pass
+//! fast path for data lines; `read` is the streaming parser (one pass, lines read in
+//! place from the input buffer, no allocation per token or line; files of 8 MiB and
+//! more are read in blocks whose data lines are scanned in parallel); `write`
+//! formats a [`Network`] back into either version. The rules and their
 //! sources are in `reference/touchstone.md`; decisions where the specifications are
 //! silent or ambiguous are listed in the `read` module's documentation.
 //!
@@ -16,7 +18,9 @@ mod read;
 mod write;
 
 pub use error::{ErrorKind, ReadError};
-pub use read::{check_bytes, read_bytes, read_path, read_reader, MAX_PORTS};
+pub use read::{
+    check_bytes, read_blocks, read_bytes, read_bytes_careful, read_path, read_reader, MAX_PORTS,
+};
 pub use write::{try_write_string, write_path, write_string, WriteError};
 
 use crate::network::{Network, C64};

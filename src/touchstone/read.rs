@@ -1,6 +1,14 @@
-//! The streaming Touchstone parser: one pass over the lines, one reusable line
-//! buffer, numbers scanned in place (no allocation per token or per line), each
-//! record converted to S as soon as it is complete, so memory is the result's size.
+//! The streaming Touchstone parser: one pass over the lines, each read in place
+//! from the input buffer, numbers scanned in place (no allocation per token or per
+//! line), each record converted to S as soon as it is complete, so memory is the
+//! result's size.
+//!
+//! Speed (issue 8): a data line is first tried by [`lex::scan_numbers`], which reads
+//! and checks its numbers in one pass; only a line it declines goes through the
+//! careful per-token path, which is the one that words the errors, so messages and
+//! columns are those of the careful path (`read_bytes_careful` is the reference the
+//! tests compare with). Large files go through [`read_blocks`], which runs that scan
+//! over a block's lines in parallel and feeds the same parser in order.
 //!
 //! Rules follow `reference/touchstone.md` (section numbers below refer to it).
 //! Decisions where the specifications are silent or ambiguous:
@@ -29,7 +37,9 @@
 //!   UTF-8 byte-order mark is a warning. Control bytes other than tab are an error.
 
 use std::fs::File;
-use std::io::{BufRead, BufReader};
+use std::io::{self, BufRead, BufReader, Read};
+
+use rayon::prelude::*;
 use std::path::Path;
 
 use super::lex::{self, LineError, LineReader, NumError, Tokens};
@@ -58,7 +68,10 @@ pub fn read_path(path: &Path) -> Result<Touchstone, ReadError> {
         kind: ErrorKind::Io(e.to_string()),
     })?;
     let size = file.metadata().ok().map(|m| m.len());
-    read_reader(&name, BufReader::with_capacity(1 << 18, file), size)
+    match size {
+        Some(s) if s >= PARALLEL_MIN => read_blocks(&name, file, size, BLOCK),
+        _ => read_reader(&name, BufReader::with_capacity(1 << 18, file), size),
+    }
 }
 
 /// Read a Touchstone file held in memory; `name` is used for messages and for the
@@ -73,31 +86,151 @@ pub fn read_reader<R: BufRead>(
     reader: R,
     size: Option<u64>,
 ) -> Result<Touchstone, ReadError> {
+    read_lines(name, reader, size, true)
+}
+
+/// [`read_bytes`] with the fast path for data lines turned off: every line goes
+/// through the per-token checks. The result is the same, errors included, only
+/// slower; tests compare the two (tests/touchstone_fast.rs).
+pub fn read_bytes_careful(name: &str, bytes: &[u8]) -> Result<Touchstone, ReadError> {
+    read_lines(name, bytes, Some(bytes.len() as u64), false)
+}
+
+fn read_lines<R: BufRead>(
+    name: &str,
+    reader: R,
+    size: Option<u64>,
+    fast: bool,
+) -> Result<Touchstone, ReadError> {
     let mut p = Parser::new(name, size)?;
-    let mut lines = LineReader::new(reader);
+    p.fast = fast;
+    let last = p.run(LineReader::new(reader))?;
+    p.finish(last)
+}
+
+/// Files at least this large are read by [`read_blocks`], smaller ones are not
+/// worth a second thread.
+const PARALLEL_MIN: u64 = 8 << 20;
+/// Bytes [`read_path`] reads at a time for [`read_blocks`]: enough lines to share
+/// out, little memory beside the result.
+const BLOCK: usize = 4 << 20;
+/// Lines per parallel task of [`read_blocks`].
+const LINES_PER_TASK: usize = 2048;
+
+/// The reader for large files: reads `block` bytes at a time, runs the fast path
+/// ([`lex::scan_numbers`], most of the work) over the block's lines in parallel,
+/// then hands the lines in order to the same parser as [`read_reader`]. The scan
+/// is a function of a line's bytes alone, so the result is the line-by-line one,
+/// errors included. A line longer than a block (absurd in data) hands the rest of
+/// the input to the line-by-line reader.
+pub fn read_blocks<R: Read>(
+    name: &str,
+    mut src: R,
+    size: Option<u64>,
+    block: usize,
+) -> Result<Touchstone, ReadError> {
+    let block = block.max(1);
+    let mut p = Parser::new(name, size)?;
+    let mut buf: Vec<u8> = Vec::new();
+    let mut lines: Vec<(usize, usize)> = Vec::new();
+    let mut no = 0;
+    // the last block ended in CR: an LF starting the next belongs to it
+    let mut skip_lf = false;
     loop {
-        let start = p.bytes;
-        match lines.next_line() {
-            Ok(true) => {}
-            Ok(false) => break,
-            Err(LineError::Io(e)) => {
-                return Err(p.err(lines.line + 1, 1, ErrorKind::Io(e.to_string())))
-            }
-            Err(LineError::TooLong(l)) => {
-                return Err(p.err(
-                    l,
-                    1,
-                    ErrorKind::LineTooLong {
-                        limit: lex::MAX_LINE,
-                    },
-                ))
+        // a block of new bytes after the carried partial line
+        let eof = fill(&mut src, &mut buf, block)
+            .map_err(|e| p.err(no + 1, 1, ErrorKind::Io(e.to_string())))?;
+        let mut i = 0;
+        if skip_lf && buf.first() == Some(&b'\n') {
+            i = 1;
+        }
+        skip_lf = false;
+        lines.clear();
+        while let Some(q) = memchr::memchr2(b'\n', b'\r', &buf[i..]) {
+            let end = i + q;
+            lines.push((i, end));
+            i = end + 1;
+            if buf[end] == b'\r' {
+                match buf.get(i) {
+                    Some(b'\n') => i += 1,
+                    None => skip_lf = true,
+                    _ => {}
+                }
             }
         }
-        p.line_start = start;
-        p.bytes = start + lines.buf.len() as u64 + 1;
-        p.line(lines.line, &lines.buf)?;
+        if eof && i < buf.len() {
+            lines.push((i, buf.len()));
+            i = buf.len();
+        }
+        if lines.is_empty() && !eof {
+            // no line end in a whole block: go on line by line from here
+            buf.drain(..i);
+            let rest = io::Cursor::new(std::mem::take(&mut buf)).chain(src);
+            let reader = BufReader::with_capacity(1 << 18, rest);
+            let last = p.run(LineReader::resume(reader, no, skip_lf))?;
+            return p.finish(last);
+        }
+        let scans: Vec<Scanned> = lines
+            .par_chunks(LINES_PER_TASK)
+            .map(|chunk| Scanned::of(&buf, chunk))
+            .collect();
+        for (chunk, scanned) in lines.chunks(LINES_PER_TASK).zip(&scans) {
+            for (&(s, e), pre) in chunk.iter().zip(&scanned.lines) {
+                no += 1;
+                let raw = &buf[s..e];
+                if raw.len() > lex::MAX_LINE {
+                    return Err(p.err(
+                        no,
+                        1,
+                        ErrorKind::LineTooLong {
+                            limit: lex::MAX_LINE,
+                        },
+                    ));
+                }
+                let pre = pre
+                    .as_ref()
+                    .map(|(end, r)| (*end, &scanned.vals[r.clone()]));
+                p.feed(no, raw, pre)?;
+            }
+        }
+        if eof {
+            return p.finish(no);
+        }
+        buf.drain(..i);
     }
-    p.finish(lines.line)
+}
+
+/// [`lex::scan_numbers`] over some lines of a block: per line, where its content
+/// ends and which of `vals` are its values, or `None` where the scan declined.
+struct Scanned {
+    vals: Vec<f64>,
+    lines: Vec<Option<(usize, std::ops::Range<usize>)>>,
+}
+
+impl Scanned {
+    fn of(buf: &[u8], lines: &[(usize, usize)]) -> Scanned {
+        let mut vals = Vec::new();
+        let lines = lines
+            .iter()
+            .map(|&(s, e)| {
+                let before = vals.len();
+                match lex::scan_numbers(&buf[s..e], &mut vals) {
+                    Some(end) => Some((end, before..vals.len())),
+                    None => {
+                        vals.truncate(before);
+                        None
+                    }
+                }
+            })
+            .collect();
+        Scanned { vals, lines }
+    }
+}
+
+/// Append up to `n` bytes of `src` to `buf`; `Ok(true)` when the input ended first.
+fn fill<R: Read>(src: &mut R, buf: &mut Vec<u8>, n: usize) -> io::Result<bool> {
+    let got = src.take(n as u64).read_to_end(buf)?;
+    Ok(got < n)
 }
 
 /// Read arbitrary bytes under several file names and report how many readings
@@ -212,6 +345,25 @@ fn same_words(a: &[u8], b: &[u8]) -> bool {
     }
 }
 
+/// Where a line's tokens are, for messages. Columns are found again only when an
+/// error needs one, so the data path keeps no column per value.
+#[derive(Clone, Copy)]
+struct At<'l> {
+    /// the line's content (before any comment)
+    content: &'l [u8],
+    /// 0-based column of `content[0]` in the line
+    off: usize,
+}
+
+impl At<'_> {
+    /// 1-based column of the `k`-th token.
+    fn col(self, k: usize) -> usize {
+        Tokens::new(self.content)
+            .nth(k)
+            .map_or(self.off + 1, |(c, _)| self.off + c + 1)
+    }
+}
+
 struct OptionLine {
     unit: FreqUnit,
     param: Param,
@@ -223,6 +375,8 @@ struct OptionLine {
 
 struct Parser<'a> {
     name: &'a str,
+    /// data lines take the fast path ([`lex::scan_numbers`])
+    fast: bool,
     ext: Option<(usize, String)>,
     size: Option<u64>,
     /// bytes consumed so far and at the start of the current line
@@ -259,8 +413,8 @@ struct Parser<'a> {
     rec: Vec<f64>,
     rec_line: usize,
     first_rec_start: u64,
+    /// the current line's values (reused)
     vals: Vec<f64>,
-    cols: Vec<usize>,
     prev_f: Option<(f64, usize)>,
     freq: Vec<f64>,
     s: Vec<C64>,
@@ -322,6 +476,7 @@ impl<'a> Parser<'a> {
         })?;
         Ok(Parser {
             name,
+            fast: true,
             ext,
             size,
             bytes: 0,
@@ -355,7 +510,6 @@ impl<'a> Parser<'a> {
             rec_line: 0,
             first_rec_start: 0,
             vals: Vec::new(),
-            cols: Vec::new(),
             prev_f: None,
             freq: Vec::new(),
             s: Vec::new(),
@@ -391,8 +545,89 @@ impl<'a> Parser<'a> {
         self.version.is_v2()
     }
 
+    /// Feed every line of `lines` to the parser; the number of the last line.
+    fn run<R: BufRead>(&mut self, mut lines: LineReader<R>) -> Result<usize, ReadError> {
+        loop {
+            match lines.next_line() {
+                Ok(Some((no, raw))) => self.feed(no, raw, None)?,
+                Ok(None) => return Ok(lines.line),
+                Err(LineError::Io(e)) => {
+                    return Err(self.err(lines.line + 1, 1, ErrorKind::Io(e.to_string())))
+                }
+                Err(LineError::TooLong(l)) => {
+                    return Err(self.err(
+                        l,
+                        1,
+                        ErrorKind::LineTooLong {
+                            limit: lex::MAX_LINE,
+                        },
+                    ))
+                }
+            }
+        }
+    }
+
+    /// One line with its number and, when [`lex::scan_numbers`] has already read
+    /// it, the result of that scan.
+    fn feed(
+        &mut self,
+        no: usize,
+        raw: &[u8],
+        scanned: Option<(usize, &[f64])>,
+    ) -> Result<(), ReadError> {
+        let start = self.bytes;
+        self.line_start = start;
+        self.bytes = start + raw.len() as u64 + 1;
+        match scanned {
+            Some((end, vals)) if self.takes_fast_path() => self.scanned_line(no, raw, end, vals),
+            _ => self.line(no, raw),
+        }
+    }
+
+    /// Data lines take the fast path; a line it declines (anything but numbers,
+    /// blanks and a comment) is read again the careful way.
+    fn takes_fast_path(&self) -> bool {
+        self.fast && matches!(self.stage, Stage::V1 | Stage::V2Net | Stage::V2Noise)
+    }
+
     /// One line, terminator removed.
     fn line(&mut self, no: usize, raw: &[u8]) -> Result<(), ReadError> {
+        if self.takes_fast_path() {
+            let mut vals = std::mem::take(&mut self.vals);
+            vals.clear();
+            if let Some(end) = lex::scan_numbers(raw, &mut vals) {
+                let res = self.scanned_line(no, raw, end, &vals);
+                self.vals = vals;
+                return res;
+            }
+            self.vals = vals;
+        }
+        self.careful_line(no, raw)
+    }
+
+    /// A line of numbers read by [`lex::scan_numbers`], its content ending at `end`.
+    fn scanned_line(
+        &mut self,
+        no: usize,
+        raw: &[u8],
+        end: usize,
+        vals: &[f64],
+    ) -> Result<(), ReadError> {
+        if end < raw.len() {
+            self.check_comment(no, end + 1, &raw[end + 1..])?;
+        }
+        if vals.is_empty() {
+            return Ok(());
+        }
+        let at = At {
+            content: &raw[..end],
+            off: 0,
+        };
+        self.data_line(no, vals, at)
+    }
+
+    /// Any line: the character checks, then a dispatch on its first character.
+    fn careful_line(&mut self, no: usize, raw: &[u8]) -> Result<(), ReadError> {
         let mut off = 0;
         let mut bytes = raw;
         if no == 1 && bytes.starts_with(BOM) {
@@ -1315,18 +1550,13 @@ impl<'a> Parser<'a> {
             }
             Stage::V2Info(_) | Stage::V1 | Stage::V2Net | Stage::V2Noise => {}
         }
-        // scan the line's numbers into the reusable buffers
+        // scan the line's numbers into the reusable buffer
         let mut vals = std::mem::take(&mut self.vals);
-        let mut cols = std::mem::take(&mut self.cols);
         vals.clear();
-        cols.clear();
         let mut res = Ok(());
         for (c, t) in Tokens::new(content) {
             match self.number(no, off + c + 1, t) {
-                Ok(v) => {
-                    vals.push(v);
-                    cols.push(off + c + 1);
-                }
+                Ok(v) => vals.push(v),
                 Err(e) => {
                     res = Err(e);
                     break;
@@ -1334,23 +1564,22 @@ impl<'a> Parser<'a> {
             }
         }
         if res.is_ok() {
-            res = self.data_line(no, &vals, &cols);
+            res = self.data_line(no, &vals, At { content, off });
         }
         self.vals = vals;
-        self.cols = cols;
         res
     }
 
-    fn data_line(&mut self, no: usize, vals: &[f64], cols: &[usize]) -> Result<(), ReadError> {
+    fn data_line(&mut self, no: usize, vals: &[f64], at: At) -> Result<(), ReadError> {
         let k = vals.len();
         if self.noise_v1_line.is_some() || self.stage == Stage::V2Noise {
-            return self.noise_row(no, vals, cols);
+            return self.noise_row(no, vals, at);
         }
         if !self.rec.is_empty() {
             if k.is_multiple_of(2) {
                 let before = self.rec.len();
                 self.rec.extend_from_slice(vals);
-                return self.check_record(no, cols, before);
+                return self.check_record(no, at, before);
             }
             // an odd count starts a record: the current one must be complete
             match self.n {
@@ -1358,7 +1587,7 @@ impl<'a> Parser<'a> {
                 Some(n) => {
                     return Err(self.err(
                         no,
-                        cols[0],
+                        at.col(0),
                         ErrorKind::TooFewValues {
                             expected: self.rec_len,
                             found: self.rec.len(),
@@ -1371,11 +1600,11 @@ impl<'a> Parser<'a> {
         }
         // a record starts here
         if k.is_multiple_of(2) {
-            return Err(self.err(no, cols[0], ErrorKind::RecordStartEven(k)));
+            return Err(self.err(no, at.col(0), ErrorKind::RecordStartEven(k)));
         }
         let f = vals[0];
         if f < 0.0 {
-            return Err(self.err(no, cols[0], ErrorKind::NegativeFrequency(fmt_raw(f))));
+            return Err(self.err(no, at.col(0), ErrorKind::NegativeFrequency(fmt_raw(f))));
         }
         if let Some((pf, pl)) = self.prev_f {
             if f <= pf {
@@ -1383,11 +1612,11 @@ impl<'a> Parser<'a> {
                 if v1_two_port && (f < pf || k == 5) {
                     if k == 5 {
                         self.noise_v1_line = Some(no);
-                        return self.noise_row(no, vals, cols);
+                        return self.noise_row(no, vals, at);
                     }
                     return Err(self.err(
                         no,
-                        cols[0],
+                        at.col(0),
                         ErrorKind::NoiseRowLength {
                             found: k,
                             hint: format!(
@@ -1409,7 +1638,7 @@ impl<'a> Parser<'a> {
                 };
                 return Err(self.err(
                     no,
-                    cols[0],
+                    at.col(0),
                     ErrorKind::FrequencyNotIncreasing {
                         prev: fmt_raw(pf),
                         prev_line: pl,
@@ -1423,7 +1652,7 @@ impl<'a> Parser<'a> {
             if self.freq.len() as u64 >= want {
                 return Err(self.err(
                     no,
-                    cols[0],
+                    at.col(0),
                     ErrorKind::CountMismatch {
                         keyword: "Number of Frequencies",
                         what: "network data records",
@@ -1439,12 +1668,12 @@ impl<'a> Parser<'a> {
             self.first_rec_start = self.line_start;
         }
         self.rec.extend_from_slice(vals);
-        self.check_record(no, cols, 0)
+        self.check_record(no, at, 0)
     }
 
     /// After values were appended (`before` values were there already): overflow and
     /// completion.
-    fn check_record(&mut self, no: usize, cols: &[usize], before: usize) -> Result<(), ReadError> {
+    fn check_record(&mut self, no: usize, at: At, before: usize) -> Result<(), ReadError> {
         match self.n {
             Some(n) => {
                 let len = self.rec.len();
@@ -1452,7 +1681,7 @@ impl<'a> Parser<'a> {
                     let idx = self.rec_len - before;
                     return Err(self.err(
                         no,
-                        cols[idx.min(cols.len() - 1)],
+                        at.col(idx.min(len - before - 1)),
                         ErrorKind::TooManyValues {
                             expected: self.rec_len,
                             ports: n,
@@ -1469,7 +1698,7 @@ impl<'a> Parser<'a> {
                 if self.rec.len() > max {
                     return Err(self.err(
                         no,
-                        cols[0],
+                        at.col(0),
                         ErrorKind::RecordTooLong {
                             max,
                             ports: MAX_PORTS,
@@ -1634,7 +1863,7 @@ impl<'a> Parser<'a> {
         out.filter(|s| s.iter().all(|c| c.is_finite()))
     }
 
-    fn noise_row(&mut self, no: usize, vals: &[f64], cols: &[usize]) -> Result<(), ReadError> {
+    fn noise_row(&mut self, no: usize, vals: &[f64], at: At) -> Result<(), ReadError> {
         if vals.len() != 5 {
             let hint = match self.noise_v1_line {
                 Some(l) => format!(
@@ -1644,7 +1873,7 @@ impl<'a> Parser<'a> {
             };
             return Err(self.err(
                 no,
-                cols[0],
+                at.col(0),
                 ErrorKind::NoiseRowLength {
                     found: vals.len(),
                     hint,
@@ -1653,13 +1882,13 @@ impl<'a> Parser<'a> {
         }
         let f = vals[0];
         if f < 0.0 {
-            return Err(self.err(no, cols[0], ErrorKind::NegativeFrequency(fmt_raw(f))));
+            return Err(self.err(no, at.col(0), ErrorKind::NegativeFrequency(fmt_raw(f))));
         }
         if let Some((pf, pl)) = self.prev_noise {
             if f <= pf {
                 return Err(self.err(
                     no,
-                    cols[0],
+                    at.col(0),
                     ErrorKind::FrequencyNotIncreasing {
                         prev: fmt_raw(pf),
                         prev_line: pl,
@@ -1673,7 +1902,7 @@ impl<'a> Parser<'a> {
             if self.noise.len() as u64 >= want {
                 return Err(self.err(
                     no,
-                    cols[0],
+                    at.col(0),
                     ErrorKind::CountMismatch {
                         keyword: "Number of Noise Frequencies",
                         what: "noise rows",
