@@ -3,7 +3,7 @@
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use lcgate::figures;
-use lcgate::model::{self, fit, Lm};
+use lcgate::model::{self, fit, Dense};
 use lcgate::network::{self, Network, PortMap, ViewName, C64};
 use std::hint::black_box;
 
@@ -26,7 +26,9 @@ fn fits(c: &mut Criterion) {
         let figs = figures::view_figures(&v, &net.freq, None);
         let srf = figs.scalar("srf");
         g.bench_function(format!("fit_view/{label}"), |b| {
-            b.iter(|| fit::fit_view(black_box(&v), &net.freq, srf, &Lm::default()).expect("fits"))
+            b.iter(|| {
+                fit::fit_view(black_box(&v), &net.freq, srf, &Dense::default()).expect("fits")
+            })
         });
         // the fit plus the loss factors and mechanism, as the figures run it
         g.bench_function(format!("analyse/{label}"), |b| {

@@ -29,14 +29,17 @@
 //! first, and the prediction is then −hᵀg − ½hᵀAh of the shortened step),
 //! and the damping follows Nielsen's update (H. B. Nielsen, "Damping parameter in
 //! Marquardt's method", IMM-REP-1999-05, DTU): on ϱ > 0 the step is taken and
-//! μ ← μ·max(⅓, 1 − (2ϱ − 1)³), ν ← 2; otherwise μ ← μ·ν, ν ← 2ν. Start μ = 10⁻³
-//! (relative to the unit scaled diagonal). This is Algorithm 3.16 of K. Madsen,
+//! μ ← μ·max(⅓, 1 − (2ϱ − 1)³), ν ← 2; otherwise μ ← μ·ν, ν ← 2ν. Start μ = 10⁻⁶
+//! (see [`MU_START`]). This is Algorithm 3.16 of K. Madsen,
 //! H. B. Nielsen and O. Tingleff, "Methods for non-linear least squares problems",
 //! 2nd ed., IMM DTU 2004, with Marquardt's scaling.
 //!
 //! It stops ([`Stop`]) when the rms residual is below a floor (the data are met to
 //! their own precision: nothing left to polish; this is also the early exit when the
-//! start is already exact), when a taken step reduced F and predicted to reduce it by
+//! start is already exact), when the Newton decrement ½ĝᵀÂ⁻¹ĝ (the gain a full
+//! Gauss–Newton step predicts; S. Boyd and L. Vandenberghe, "Convex Optimization",
+//! 2004, §9.5.1) is below `ftol`·F, which saves the evaluation of a last step that
+//! cannot pay, or when a taken step reduced F and predicted to reduce it by
 //! less than `ftol`·F (MINPACK's test), when the step is below `xtol`·(‖p‖ + `xtol`),
 //! when every column of J is orthogonal to r to within `gtol` (cosine
 //! |J_kᵀr| / (‖J_k‖‖r‖), MINPACK's test), or after `max_evals` evaluations.
@@ -52,6 +55,14 @@ pub const N_MAX: usize = 6;
 /// column of J, hence a huge scaled step) cannot leap into a far, flat region in one
 /// step, the guard MINPACK gets from its trust region.
 const STEP_MAX: f64 = 2.0;
+
+/// Damping of the Gauss–Newton step whose predicted gain is the convergence test: just
+/// enough to factorise a semi-definite Â.
+const DECREMENT_DAMPING: f64 = 1e-12;
+
+/// Starting damping, relative to the unit scaled diagonal: small, since the fits start
+/// from analytic values close to the optimum (Madsen et al. suggest 10⁻⁶ then).
+const MU_START: f64 = 1e-6;
 
 /// The least-squares problem at one point: F = ½‖r‖² and the normal equations.
 #[derive(Debug, Clone, Copy)]
@@ -113,6 +124,17 @@ pub enum Stop {
     Budget,
 }
 
+/// Where [`minimise`] stopped.
+#[derive(Debug, Clone, Copy)]
+pub struct Outcome {
+    /// the parameters (the first `n` entries)
+    pub p: [f64; N_MAX],
+    /// why it stopped there
+    pub stop: Stop,
+    /// evaluations of the problem spent
+    pub evals: usize,
+}
+
 /// Tolerances and budget of [`minimise`].
 #[derive(Debug, Clone, Copy)]
 pub struct Options {
@@ -135,7 +157,7 @@ impl Default for Options {
             ftol: 1e-10,
             xtol: 1e-10,
             gtol: 1e-10,
-            max_evals: 100,
+            max_evals: 200,
         }
     }
 }
@@ -182,11 +204,7 @@ fn cholesky_solve(m: &mut [[f64; N_MAX]; N_MAX], b: &mut [f64; N_MAX], n: usize)
 
 /// Minimise `prob` from `p0`; the point where it stopped and why, or Err when the
 /// problem is undefined at `p0`.
-pub fn minimise(
-    prob: &dyn Problem,
-    p0: &[f64],
-    opt: &Options,
-) -> Result<([f64; N_MAX], Stop), String> {
+pub fn minimise(prob: &dyn Problem, p0: &[f64], opt: &Options) -> Result<Outcome, String> {
     let n = prob.n();
     if n == 0 || n > N_MAX || p0.len() != n {
         return Err(format!("the dense solver takes 1 to {N_MAX} parameters"));
@@ -199,13 +217,14 @@ pub fn minimise(
         return Err("the residual is not finite at the start".into());
     }
     let mut evals = 1;
+    let done = |p, stop, evals| Ok(Outcome { p, stop, evals });
     let mut diag = [0.0f64; N_MAX];
-    let mut mu = 1e-3;
+    let mut mu = MU_START;
     let mut nu = 2.0;
     let mut trial = Normal::ZERO;
     loop {
         if at.rms() <= opt.floor {
-            return Ok((p, Stop::Fits));
+            return done(p, Stop::Fits, evals);
         }
         let mut s = [0.0; N_MAX];
         let mut cos_max: f64 = 0.0;
@@ -222,14 +241,14 @@ pub fn minimise(
             }
         }
         if cos_max <= opt.gtol {
-            return Ok((p, Stop::SmallGradient));
+            return done(p, Stop::SmallGradient, evals);
         }
         let mut g = [0.0; N_MAX];
         for k in 0..n {
             g[k] = s[k] * at.jtr[k];
         }
-        // the damped step, damping raised until the system is positive definite
-        let h = loop {
+        // (Â + μI) ĥ = −ĝ
+        let damped = |mu: f64| {
             let mut m = [[0.0; N_MAX]; N_MAX];
             let mut h = [0.0; N_MAX];
             for i in 0..n {
@@ -239,13 +258,24 @@ pub fn minimise(
                 m[i][i] += mu;
                 h[i] = -g[i];
             }
-            if cholesky_solve(&mut m, &mut h, n) {
+            cholesky_solve(&mut m, &mut h, n).then_some(h)
+        };
+        // the Newton decrement: what a full Gauss–Newton step would gain at most
+        if let Some(h) = damped(DECREMENT_DAMPING) {
+            let gain: f64 = (0..n).map(|k| -0.5 * h[k] * g[k]).sum();
+            if gain <= opt.ftol * at.cost {
+                return done(p, Stop::Converged, evals);
+            }
+        }
+        // the damped step, damping raised until the system is positive definite
+        let h = loop {
+            if let Some(h) = damped(mu) {
                 break h;
             }
             mu *= nu;
             nu *= 2.0;
             if !mu.is_finite() {
-                return Ok((p, Stop::SmallStep));
+                return done(p, Stop::SmallStep, evals);
             }
         };
         // no parameter moves by more than STEP_MAX in one iteration
@@ -267,10 +297,10 @@ pub fn minimise(
             pred -= t * h[k] * (g[k] + 0.5 * t * ah);
         }
         if step2.sqrt() <= opt.xtol * (p2.sqrt() + opt.xtol) {
-            return Ok((p, Stop::SmallStep));
+            return done(p, Stop::SmallStep, evals);
         }
         if evals >= opt.max_evals {
-            return Ok((p, Stop::Budget));
+            return done(p, Stop::Budget, evals);
         }
         evals += 1;
         let ok = prob.eval(&p_new[..n], cheap, &mut trial) && trial.cost.is_finite();
@@ -283,12 +313,12 @@ pub fn minimise(
                 at = trial;
             } else {
                 if evals >= opt.max_evals || !prob.eval(&p[..n], true, &mut at) {
-                    return Ok((p, Stop::Budget));
+                    return done(p, Stop::Budget, evals);
                 }
                 evals += 1;
             }
             if actual <= opt.ftol * old && pred <= opt.ftol * old {
-                return Ok((p, Stop::Converged));
+                return done(p, Stop::Converged, evals);
             }
             mu *= (1.0 - (2.0 * rho - 1.0).powi(3)).max(1.0 / 3.0);
             nu = 2.0;
@@ -332,16 +362,34 @@ impl Problem for FormProblem<'_> {
     }
 
     fn eval(&self, p: &[f64], _full: bool, out: &mut Normal) -> bool {
+        // the loops over parameters with a size known at compile time, unrolled
+        match p.len() {
+            3 => self.accumulate::<3>(p, out),
+            4 => self.accumulate::<4>(p, out),
+            6 => self.accumulate::<6>(p, out),
+            _ => self.accumulate::<N_MAX>(p, out),
+        }
+    }
+}
+
+impl FormProblem<'_> {
+    /// F and the normal equations in one pass over the points, for N ≥ `p.len()`
+    /// parameters (the ones past `p.len()` are held at zero).
+    // index loops over the triangle of JᵀJ read best as such
+    #[allow(clippy::needless_range_loop)]
+    fn accumulate<const N: usize>(&self, p: &[f64], out: &mut Normal) -> bool {
         let n = p.len();
         let x = self.x_of(p);
         // ∂r/∂p_k = x_k·w_i·∂Y/∂x_k (log space); zero where p_k is clamped
-        let mut dx = [0.0; N_MAX];
+        let mut dx = [0.0; N];
         for k in 0..n {
             if p[k].abs() < P_MAX {
                 dx[k] = x[k];
             }
         }
-        *out = Normal::ZERO;
+        let (mut cost, mut points) = (0.0, 0);
+        let mut jtj = [[0.0; N]; N];
+        let mut jtr = [0.0; N];
         let mut grad = [C64::new(0.0, 0.0); N_MAX];
         for (i, &fi) in self.f.iter().enumerate() {
             let w = self.weight[i];
@@ -350,31 +398,33 @@ impl Problem for FormProblem<'_> {
             if !(e.re.is_finite() && e.im.is_finite()) {
                 return false;
             }
-            if w > 0.0 {
-                out.points += 1;
-            }
-            out.cost += e.norm_sqr();
-            let mut jr = [0.0; N_MAX];
-            let mut ji = [0.0; N_MAX];
-            for k in 0..n {
+            points += usize::from(w > 0.0);
+            cost += e.norm_sqr();
+            let mut jr = [0.0; N];
+            let mut ji = [0.0; N];
+            for k in 0..N {
                 let d = grad[k] * (dx[k] * w);
                 jr[k] = d.re;
                 ji[k] = d.im;
             }
-            for k in 0..n {
-                out.jtr[k] += jr[k] * e.re + ji[k] * e.im;
+            for k in 0..N {
+                jtr[k] += jr[k] * e.re + ji[k] * e.im;
                 for l in 0..=k {
-                    out.jtj[k][l] += jr[k] * jr[l] + ji[k] * ji[l];
+                    jtj[k][l] += jr[k] * jr[l] + ji[k] * ji[l];
                 }
             }
         }
-        out.cost *= 0.5;
+        *out = Normal::ZERO;
+        out.cost = 0.5 * cost;
+        out.points = points;
         for k in 0..n {
-            if !(out.jtr[k].is_finite() && out.jtj[k][k].is_finite()) {
+            if !(jtr[k].is_finite() && jtj[k][k].is_finite()) {
                 return false;
             }
-            for l in 0..k {
-                out.jtj[l][k] = out.jtj[k][l];
+            out.jtr[k] = jtr[k];
+            for l in 0..=k {
+                out.jtj[k][l] = jtj[k][l];
+                out.jtj[l][k] = jtj[k][l];
             }
         }
         true
@@ -413,8 +463,8 @@ impl Solver for Dense {
             weight: weights(data),
             scale: x0,
         };
-        let (p, _) = minimise(&prob, &vec![0.0; x0.len()], &self.options)?;
-        Ok(prob.x_of(&p[..x0.len()])[..x0.len()].to_vec())
+        let out = minimise(&prob, &vec![0.0; x0.len()], &self.options)?;
+        Ok(prob.x_of(&out.p[..x0.len()])[..x0.len()].to_vec())
     }
 }
 
@@ -463,7 +513,7 @@ mod tests {
 
     #[test]
     fn recovers_an_exponential_from_far_away() {
-        let (p, stop) = minimise(&exp_problem(0.0), &[0.3, 0.5], &Options::default())
+        let Outcome { p, stop, .. } = minimise(&exp_problem(0.0), &[0.3, 0.5], &Options::default())
             .expect("defined at the start");
         assert!(
             (p[0] - 2.0).abs() < 1e-8 && (p[1] + 0.7).abs() < 1e-8,
@@ -476,7 +526,7 @@ mod tests {
     fn meets_the_normal_equations_on_rippled_data() {
         // at the least-squares optimum the gradient Jᵀr vanishes (first-order condition)
         let prob = exp_problem(0.01);
-        let (p, stop) =
+        let Outcome { p, stop, .. } =
             minimise(&prob, &[1.0, -0.1], &Options::default()).expect("defined at the start");
         assert_ne!(stop, Stop::Budget);
         let mut at = Normal::ZERO;
@@ -505,8 +555,9 @@ mod tests {
         }
         let exp = exp_problem(0.0);
         let c = Counting(&exp, std::cell::Cell::new(0));
-        let (p, stop) = minimise(&c, &[2.0, -0.7], &Options::default()).expect("defined");
-        assert_eq!((stop, c.1.get()), (Stop::Fits, 1));
+        let Outcome { p, stop, evals } =
+            minimise(&c, &[2.0, -0.7], &Options::default()).expect("defined");
+        assert_eq!((stop, evals, c.1.get()), (Stop::Fits, 1, 1));
         assert_eq!((p[0], p[1]), (2.0, -0.7));
     }
 

@@ -12,7 +12,7 @@ pub mod loss;
 
 pub use circuit::shunt_y;
 pub use dense::Dense;
-pub use fit::{Drive, Fitted, Lm, Solver};
+pub use fit::{Drive, Fitted, Solver};
 
 /// What limits Q at a frequency (DESIGN §6.1).
 #[derive(
