@@ -20,8 +20,21 @@ use super::{check_word, count_line, drift_listed, is_failure, show_change, show_
 
 /// The HTML page.
 pub fn html(r: &RunReport) -> String {
+    let mut out = Vec::with_capacity(64 * 1024 + r.parts.len() * 12 * 1024);
+    // writing into a Vec cannot fail
+    let _ = html_to(r, &mut out);
+    String::from_utf8(out).unwrap_or_default()
+}
+
+/// Parts whose sections are drawn together (in parallel) before being written out:
+/// enough to keep both cores busy, few enough that a large library's page is never
+/// held whole in memory.
+const SECTION_CHUNK: usize = 64;
+
+/// Write the HTML page to `w`.
+pub fn html_to(r: &RunReport, w: &mut dyn std::io::Write) -> std::io::Result<()> {
     let ids = part_ids(r);
-    let mut o = String::with_capacity(64 * 1024 + r.parts.len() * 12 * 1024);
+    let mut o = String::with_capacity(64 * 1024 + r.parts.len() * 512);
     let verdict = if r.passed { "PASS" } else { "FAIL" };
     let _ = writeln!(
         o,
@@ -55,24 +68,25 @@ pub fn html(r: &RunReport) -> String {
     part_table(&mut o, r, &ids);
     changed(&mut o, r, &ids);
     let _ = writeln!(o, "<h2 id=\"details\">Parts in detail</h2>");
-    // each part's section (three charts) is drawn on its own, in parallel: it depends
-    // on nothing but the part, and joining them in path order keeps the page the same
+    w.write_all(o.as_bytes())?;
+    // each part's section (three charts) depends on nothing but the part: a chunk of
+    // them is drawn in parallel, then written in path order, so the page is the same
     // for any thread count
-    let sections: Vec<String> = r
-        .parts
-        .par_iter()
-        .zip(ids.par_iter())
-        .map(|(p, id)| {
-            let mut s = String::with_capacity(12 * 1024);
-            part_section(&mut s, r, p, id);
-            s
-        })
-        .collect();
-    for s in sections {
-        o.push_str(&s);
+    for (parts, ids) in r.parts.chunks(SECTION_CHUNK).zip(ids.chunks(SECTION_CHUNK)) {
+        let sections: Vec<String> = parts
+            .par_iter()
+            .zip(ids.par_iter())
+            .map(|(p, id)| {
+                let mut s = String::with_capacity(12 * 1024);
+                part_section(&mut s, r, p, id);
+                s
+            })
+            .collect();
+        for s in sections {
+            w.write_all(s.as_bytes())?;
+        }
     }
-    let _ = writeln!(o, "</main>\n<script>{SCRIPT}</script>\n</body>\n</html>");
-    o
+    writeln!(w, "</main>\n<script>{SCRIPT}</script>\n</body>\n</html>")
 }
 
 /// Element ids of the parts' sections: `part-` and the path with anything but letters,

@@ -15,14 +15,19 @@ use crate::verdict::RunReport;
 /// The `lcgate-report/1` document, ending in a newline.
 pub fn json(r: &RunReport) -> String {
     let mut out = Vec::with_capacity(64 * 1024);
-    let mut ser = serde_json::Serializer::with_formatter(&mut out, ReportFormatter::default());
-    // Serializing plain data into a Vec cannot fail: no maps with non-string keys, no
-    // I/O errors. Fall back to the compact form rather than panic if it ever did.
-    if r.serialize(&mut ser).is_err() {
+    // writing into a Vec has no I/O to fail, and plain data always serializes (no maps
+    // with non-string keys); fall back to the compact form rather than panic if it did
+    if json_to(r, &mut out).is_err() {
         return serde_json::to_string(r).unwrap_or_default() + "\n";
     }
-    out.push(b'\n');
     String::from_utf8(out).unwrap_or_default()
+}
+
+/// Write the `lcgate-report/1` document, ending in a newline, to `w`.
+pub fn json_to(r: &RunReport, w: &mut dyn io::Write) -> io::Result<()> {
+    let mut ser = serde_json::Serializer::with_formatter(&mut *w, ReportFormatter::default());
+    r.serialize(&mut ser).map_err(io::Error::other)?;
+    w.write_all(b"\n")
 }
 
 /// How the current array prints: undecided until its first element is seen.

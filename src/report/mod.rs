@@ -39,10 +39,11 @@ pub const REPORT_FILES: [&str; 4] = ["report.json", "report.xml", "report.md", "
 pub fn write_all(dir: &Path, r: &RunReport) -> io::Result<()> {
     fs::create_dir_all(dir).map_err(|e| with_path(dir, e))?;
     let write = |name: &str, text: String| atomic_write(&dir.join(name), text.as_bytes());
+    // the two large documents stream into their files, never held whole in memory
     let (page, rest) = rayon::join(
-        || write(REPORT_FILES[3], html(r)),
+        || atomic_write_stream(&dir.join(REPORT_FILES[3]), |w| html::html_to(r, w)),
         || -> io::Result<()> {
-            write(REPORT_FILES[0], json(r))?;
+            atomic_write_stream(&dir.join(REPORT_FILES[0]), |w| json::json_to(r, w))?;
             write(REPORT_FILES[1], junit(r))?;
             write(REPORT_FILES[2], markdown(r))
         },
@@ -57,10 +58,21 @@ fn with_path(path: &Path, e: io::Error) -> io::Error {
 static TEMP_COUNTER: AtomicU64 = AtomicU64::new(0);
 
 /// Write `bytes` to `path` so that readers see either the old file or the whole new
-/// one, never a part: write a temporary file in the same folder, fsync it, rename it
-/// over `path` (rename is atomic within one file system), then fsync the folder on
-/// Unix so the rename itself survives a crash. Errors name the path.
+/// one, never a part (see [`atomic_write_stream`]). Errors name the path.
 pub fn atomic_write(path: &Path, bytes: &[u8]) -> io::Result<()> {
+    atomic_write_stream(path, |w| w.write_all(bytes))
+}
+
+/// Write what `fill` produces to `path` so that readers see either the old file or the
+/// whole new one, never a part: stream it through a buffer into a temporary file in
+/// the same folder, fsync it, rename it over `path` (rename is atomic within one file
+/// system), then fsync the folder on Unix so the rename itself survives a crash. If
+/// `fill` or any step fails, the temporary file is removed and `path` is untouched.
+/// Errors name the path.
+pub fn atomic_write_stream(
+    path: &Path,
+    fill: impl FnOnce(&mut dyn Write) -> io::Result<()>,
+) -> io::Result<()> {
     let dir = match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
@@ -78,8 +90,10 @@ pub fn atomic_write(path: &Path, bytes: &[u8]) -> io::Result<()> {
     let n = TEMP_COUNTER.fetch_add(1, Ordering::Relaxed);
     let tmp = dir.join(format!(".{name}.tmp-{}-{n}", std::process::id()));
     let result = (|| {
-        let mut f = fs::File::create(&tmp)?;
-        f.write_all(bytes)?;
+        let f = fs::File::create(&tmp)?;
+        let mut w = io::BufWriter::with_capacity(256 * 1024, f);
+        fill(&mut w)?;
+        let f = w.into_inner().map_err(|e| e.into_error())?;
         f.sync_all()?;
         drop(f);
         fs::rename(&tmp, path)
