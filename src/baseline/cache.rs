@@ -22,7 +22,7 @@ use std::sync::OnceLock;
 
 use serde::{Deserialize, Serialize};
 
-use super::{write, Judged, Measure};
+use super::{Judged, Measure};
 use crate::library::{self, PartFile};
 use crate::verdict::{PartReport, RulesFileInfo};
 
@@ -223,7 +223,9 @@ impl Cache {
             key,
             part: judged,
         };
-        write::atomic_write_with(&path, |w: &mut dyn Write| {
+        // not fsynced: 2,000 fsyncs would dominate a cold run, and an entry lost or torn
+        // in a crash is detected by `get` and recomputed
+        crate::report::atomic_write_unsynced(&path, |w: &mut dyn Write| {
             serde_json::to_writer(w, &entry).map_err(io::Error::other)
         })
     }

@@ -73,6 +73,24 @@ pub fn atomic_write_stream(
     path: &Path,
     fill: impl FnOnce(&mut dyn Write) -> io::Result<()>,
 ) -> io::Result<()> {
+    replace_file(path, fill, true)
+}
+
+/// [`atomic_write_stream`] without the fsyncs, for files whose loss in a crash costs
+/// only recomputation (cache entries: a torn one fails its own checks and is rebuilt).
+/// Readers still see the old file or the whole new one while the system runs.
+pub fn atomic_write_unsynced(
+    path: &Path,
+    fill: impl FnOnce(&mut dyn Write) -> io::Result<()>,
+) -> io::Result<()> {
+    replace_file(path, fill, false)
+}
+
+fn replace_file(
+    path: &Path,
+    fill: impl FnOnce(&mut dyn Write) -> io::Result<()>,
+    durable: bool,
+) -> io::Result<()> {
     let dir = match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
@@ -94,7 +112,9 @@ pub fn atomic_write_stream(
         let mut w = io::BufWriter::with_capacity(256 * 1024, f);
         fill(&mut w)?;
         let f = w.into_inner().map_err(|e| e.into_error())?;
-        f.sync_all()?;
+        if durable {
+            f.sync_all()?;
+        }
         drop(f);
         fs::rename(&tmp, path)
     })();
@@ -103,9 +123,11 @@ pub fn atomic_write_stream(
         return Err(with_path(path, e));
     }
     #[cfg(unix)]
-    if let Ok(d) = fs::File::open(&dir) {
-        // Best effort: some file systems refuse fsync on a directory.
-        let _ = d.sync_all();
+    if durable {
+        if let Ok(d) = fs::File::open(&dir) {
+            // Best effort: some file systems refuse fsync on a directory.
+            let _ = d.sync_all();
+        }
     }
     Ok(())
 }
