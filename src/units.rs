@@ -204,6 +204,19 @@ pub fn parse_frequency(text: &str) -> Result<Hz, UnitError> {
     }
 }
 
+/// The SI prefixes engineering notation uses, largest first.
+pub const SI_PREFIXES: [(f64, &str); 9] = [
+    (1e12, "T"),
+    (1e9, "G"),
+    (1e6, "M"),
+    (1e3, "k"),
+    (1.0, ""),
+    (1e-3, "m"),
+    (1e-6, "µ"),
+    (1e-9, "n"),
+    (1e-12, "p"),
+];
+
 /// Format `value` in engineering notation with three significant digits and an SI
 /// prefix: `eng(9.123e9, "Hz")` → `"9.12 GHz"`. A ratio (empty unit) prints without a
 /// prefix unless it is very large or small.
@@ -217,19 +230,8 @@ pub fn eng(value: f64, unit: &str) -> String {
     if value == 0.0 {
         return format!("0 {unit}");
     }
-    const P: [(f64, &str); 9] = [
-        (1e12, "T"),
-        (1e9, "G"),
-        (1e6, "M"),
-        (1e3, "k"),
-        (1.0, ""),
-        (1e-3, "m"),
-        (1e-6, "µ"),
-        (1e-9, "n"),
-        (1e-12, "p"),
-    ];
     let a = value.abs();
-    let (k, p) = P
+    let (k, p) = SI_PREFIXES
         .iter()
         .copied()
         .find(|(k, _)| a >= *k * 0.9995)

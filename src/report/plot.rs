@@ -313,18 +313,7 @@ pub fn axis_scale(max_abs: f64, unit: &str) -> (f64, String) {
     if unit.is_empty() || unit == "dB" || !(max_abs.is_finite() && max_abs > 0.0) {
         return (1.0, unit.to_string());
     }
-    const P: [(f64, &str); 9] = [
-        (1e12, "T"),
-        (1e9, "G"),
-        (1e6, "M"),
-        (1e3, "k"),
-        (1.0, ""),
-        (1e-3, "m"),
-        (1e-6, "µ"),
-        (1e-9, "n"),
-        (1e-12, "p"),
-    ];
-    let (k, p) = P
+    let (k, p) = crate::units::SI_PREFIXES
         .iter()
         .copied()
         .find(|(k, _)| max_abs >= *k * 0.9995)
