@@ -195,16 +195,6 @@ impl RunMemo {
         }
     }
 
-    /// The run's key (hex).
-    pub fn key(&self) -> &str {
-        &self.key
-    }
-
-    /// Whether a run with these inputs may be stored (no part is too fresh).
-    pub fn trustworthy(&self) -> bool {
-        self.trustworthy
-    }
-
     /// The remembered run, if there is one for exactly these inputs and the reports it
     /// wrote are still as it left them.
     pub fn lookup(&self) -> Option<Remembered> {
