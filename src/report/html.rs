@@ -16,7 +16,7 @@ use crate::units::{eng, sig3};
 use crate::verdict::{CheckStatus, PartReport, PartStatus, PlotData, RunReport, Severity};
 
 use super::plot::{auto_range, svg_chart, Chart, Line, Mark};
-use super::{check_word, count_line, drift_listed, is_failure, show_change, show_value};
+use super::{check_word, count_line, drift_listed_of, is_failure, show_change, show_value};
 
 /// The HTML page.
 pub fn html(r: &RunReport) -> String {
@@ -34,59 +34,127 @@ const SECTION_CHUNK: usize = 64;
 /// Write the HTML page to `w`.
 pub fn html_to(r: &RunReport, w: &mut dyn std::io::Write) -> std::io::Result<()> {
     let ids = part_ids(r);
-    let mut o = String::with_capacity(64 * 1024 + r.parts.len() * 512);
-    let verdict = if r.passed { "PASS" } else { "FAIL" };
-    let _ = writeln!(
-        o,
-        "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>lcgate {verdict}: {}</title>\n<style>{CSS}</style>\n</head>\n<body>",
-        esc(&r.library)
-    );
-
-    // Banner
-    let attention = r
-        .parts
-        .iter()
-        .filter(|p| !matches!(p.status, PartStatus::Pass | PartStatus::Unchecked))
-        .count();
-    let _ =
-        writeln!(
-        o,
-        "<header id=\"verdict\" class=\"banner {}\"><h1>{verdict}</h1><p>{}</p></header>\n<main>",
-        if r.passed { "ok" } else { "bad" },
-        if attention == 0 {
-            format!("All {} parts pass.", r.summary.parts)
-        } else {
-            format!(
-                "{attention} of {} {} need attention.",
-                r.summary.parts,
-                if r.summary.parts == 1 { "part" } else { "parts" }
-            )
-        }
-    );
-
-    summary(&mut o, r);
-    part_table(&mut o, r, &ids);
-    changed(&mut o, r, &ids);
-    let _ = writeln!(o, "<h2 id=\"details\">Parts in detail</h2>");
-    w.write_all(o.as_bytes())?;
-    // each part's section (three charts) depends on nothing but the part: a chunk of
-    // them is drawn in parallel, then written in path order, so the page is the same
-    // for any thread count
+    let mut kinds = BTreeSet::new();
+    let mut folders = BTreeSet::new();
+    let mut rows = Vec::new();
+    let mut sections = Vec::new();
+    // each part's row and section (three charts) depend on nothing but the part: a
+    // chunk of them is drawn in parallel, then kept in path order, so the page is the
+    // same for any thread count
     for (parts, ids) in r.parts.chunks(SECTION_CHUNK).zip(ids.chunks(SECTION_CHUNK)) {
-        let sections: Vec<String> = parts
+        let drawn: Vec<PagePart> = parts
             .par_iter()
             .zip(ids.par_iter())
-            .map(|(p, id)| {
-                let mut s = String::with_capacity(12 * 1024);
-                part_section(&mut s, r, p, id);
-                s
-            })
+            .map(|(p, id)| page_part(r.strict, p, id))
             .collect();
-        for s in sections {
-            w.write_all(s.as_bytes())?;
+        for d in drawn {
+            kinds.insert(d.kind);
+            folders.insert(d.folder);
+            rows.extend_from_slice(d.row.as_bytes());
+            sections.extend_from_slice(d.section.as_bytes());
         }
     }
-    writeln!(w, "</main>\n<script>{SCRIPT}</script>\n</body>\n</html>")
+    let id_of: BTreeMap<&str, &str> = r
+        .parts
+        .iter()
+        .zip(&ids)
+        .map(|(p, id)| (p.path.as_str(), id.as_str()))
+        .collect();
+    let page = Page {
+        head: r,
+        kept: &r.parts,
+        id_of: &|path| id_of.get(path).map(|s| s.to_string()),
+        kinds: &kinds,
+        folders: &folders,
+    };
+    page.write(w, |w| w.write_all(&rows), |w| w.write_all(&sections))
+}
+
+/// What the page holds of one part: its row in the table of parts, its section, and
+/// the kind and folder it adds to the table's filters.
+pub(crate) struct PagePart {
+    pub kind: String,
+    pub folder: String,
+    pub row: String,
+    pub section: String,
+}
+
+/// Draw one part's row and section (`id`: its element id, see [`part_ids`]).
+pub(crate) fn page_part(strict: bool, p: &PartReport, id: &str) -> PagePart {
+    let mut row = String::with_capacity(512);
+    part_row(&mut row, strict, p, id);
+    let mut section = String::with_capacity(12 * 1024);
+    part_section(&mut section, strict, p, id);
+    PagePart {
+        kind: p.kind.map(|k| k.as_str()).unwrap_or("unknown").to_string(),
+        folder: folder_of(&p.path).to_string(),
+        row,
+        section,
+    }
+}
+
+/// The page around its parts' rows and sections, which stream in from elsewhere.
+pub(crate) struct Page<'a> {
+    /// the report's header (its counts final)
+    pub head: &'a RunReport,
+    /// the parts the page lists beyond rows and sections: those with drift (every
+    /// part whose drift moved must be here)
+    pub kept: &'a [PartReport],
+    /// a part's element id by path
+    pub id_of: &'a dyn Fn(&str) -> Option<String>,
+    /// every kind and folder of the table's rows, for its filters
+    pub kinds: &'a BTreeSet<String>,
+    pub folders: &'a BTreeSet<String>,
+}
+
+impl Page<'_> {
+    /// Write the page: `rows` writes the table's rows and `sections` the parts'
+    /// sections, in path order.
+    pub(crate) fn write(
+        &self,
+        w: &mut dyn std::io::Write,
+        rows: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
+        sections: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
+    ) -> std::io::Result<()> {
+        let r = self.head;
+        let mut o = String::with_capacity(64 * 1024);
+        let verdict = if r.passed { "PASS" } else { "FAIL" };
+        let _ = writeln!(
+            o,
+            "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>lcgate {verdict}: {}</title>\n<style>{CSS}</style>\n</head>\n<body>",
+            esc(&r.library)
+        );
+
+        // Banner: the parts that are neither passed nor unchecked
+        let s = &r.summary;
+        let attention = s.fail + s.unreadable + s.missing;
+        let _ = writeln!(
+            o,
+            "<header id=\"verdict\" class=\"banner {}\"><h1>{verdict}</h1><p>{}</p></header>\n<main>",
+            if r.passed { "ok" } else { "bad" },
+            if attention == 0 {
+                format!("All {} parts pass.", s.parts)
+            } else {
+                format!(
+                    "{attention} of {} {} need attention.",
+                    s.parts,
+                    if s.parts == 1 { "part" } else { "parts" }
+                )
+            }
+        );
+
+        summary(&mut o, r);
+        table_head(&mut o, self.kinds, self.folders);
+        w.write_all(o.as_bytes())?;
+        rows(w)?;
+        o.clear();
+        let _ = writeln!(o, "</tbody></table>\n</section>");
+        changed(&mut o, r.baseline.is_some(), self.kept, self.id_of);
+        let _ = writeln!(o, "<h2 id=\"details\">Parts in detail</h2>");
+        w.write_all(o.as_bytes())?;
+        sections(w)?;
+        writeln!(w, "</main>\n<script>{SCRIPT}</script>\n</body>\n</html>")
+    }
 }
 
 /// Element ids of the parts' sections: `part-` and the path with anything but letters,
@@ -259,13 +327,7 @@ fn first_failing_text(p: &PartReport, strict: bool) -> String {
     }
 }
 
-fn part_table(o: &mut String, r: &RunReport, ids: &[String]) {
-    let kinds: BTreeSet<&str> = r
-        .parts
-        .iter()
-        .map(|p| p.kind.map(|k| k.as_str()).unwrap_or("unknown"))
-        .collect();
-    let folders: BTreeSet<&str> = r.parts.iter().map(|p| folder_of(&p.path)).collect();
+fn table_head(o: &mut String, kinds: &BTreeSet<String>, folders: &BTreeSet<String>) {
     let _ = write!(
         o,
         "<section id=\"parts\"><h2>Parts</h2>\n<form id=\"filters\" class=\"filters\" onsubmit=\"return false\">"
@@ -278,71 +340,70 @@ fn part_table(o: &mut String, r: &RunReport, ids: &[String]) {
         o,
         "</select></label><label>Kind <select id=\"f-kind\"><option value=\"\">any</option>"
     );
-    for k in &kinds {
+    for k in kinds {
         let _ = write!(o, "<option value=\"{0}\">{0}</option>", esc(k));
     }
     let _ = write!(
         o,
         "</select></label><label>Folder <select id=\"f-folder\"><option value=\"\">any</option>"
     );
-    for f in &folders {
+    for f in folders {
         let _ = write!(o, "<option value=\"{0}\">{0}</option>", esc(f));
     }
     let _ = writeln!(o, "</select></label><label>Name <input id=\"f-text\" type=\"search\" placeholder=\"part of the path\"></label><span id=\"shown-count\" class=\"muted\"></span></form>");
     let _ = writeln!(o, "<table id=\"part-table\" class=\"parts\"><thead><tr><th data-sort=\"text\">part</th><th data-sort=\"text\">status</th><th data-sort=\"text\">kind</th><th data-sort=\"text\">folder</th><th data-sort=\"num\">checks failed</th><th data-sort=\"num\">Q peak</th><th data-sort=\"num\">SRF</th><th data-sort=\"text\">first problem</th></tr></thead><tbody>");
-    for (p, id) in r.parts.iter().zip(ids) {
-        let st = p.status.as_str();
-        let kind = p.kind.map(|k| k.as_str()).unwrap_or("unknown");
-        let folder = folder_of(&p.path);
-        let failed = p.checks.iter().filter(|c| is_failure(c, r.strict)).count()
-            + p.drift
-                .iter()
-                .filter(|d| d.status != CheckStatus::Pass)
-                .count();
-        let q_peak = p.figures.get("q_peak").copied().flatten();
-        let srf = p.figures.get("srf").copied().flatten();
-        let num = |v: Option<f64>| v.map(|v| format!("{v:e}")).unwrap_or_default();
-        let _ = writeln!(
-            o,
-            "<tr class=\"st-{st}\" data-status=\"{st}\" data-kind=\"{}\" data-folder=\"{}\"><td><a href=\"#{id}\">{}</a></td><td><span class=\"badge st-{st}\">{st}</span></td><td>{}</td><td>{}</td><td data-v=\"{failed}\">{failed}</td><td data-v=\"{}\">{}</td><td data-v=\"{}\">{}</td><td class=\"problem\">{}</td></tr>",
-            esc(kind),
-            esc(folder),
-            esc(&p.path),
-            esc(kind),
-            esc(folder),
-            num(q_peak),
-            q_peak.map(sig3).unwrap_or_default(),
-            num(srf),
-            srf.map(|f| eng(f, "Hz")).unwrap_or_default(),
-            esc(&first_failing_text(p, r.strict))
-        );
-    }
-    let _ = writeln!(o, "</tbody></table>\n</section>");
 }
 
-fn changed(o: &mut String, r: &RunReport, ids: &[String]) {
-    if r.baseline.is_none() {
+fn part_row(o: &mut String, strict: bool, p: &PartReport, id: &str) {
+    let st = p.status.as_str();
+    let kind = p.kind.map(|k| k.as_str()).unwrap_or("unknown");
+    let folder = folder_of(&p.path);
+    let failed = p.checks.iter().filter(|c| is_failure(c, strict)).count()
+        + p.drift
+            .iter()
+            .filter(|d| d.status != CheckStatus::Pass)
+            .count();
+    let q_peak = p.figures.get("q_peak").copied().flatten();
+    let srf = p.figures.get("srf").copied().flatten();
+    let num = |v: Option<f64>| v.map(|v| format!("{v:e}")).unwrap_or_default();
+    let _ = writeln!(
+        o,
+        "<tr class=\"st-{st}\" data-status=\"{st}\" data-kind=\"{}\" data-folder=\"{}\"><td><a href=\"#{id}\">{}</a></td><td><span class=\"badge st-{st}\">{st}</span></td><td>{}</td><td>{}</td><td data-v=\"{failed}\">{failed}</td><td data-v=\"{}\">{}</td><td data-v=\"{}\">{}</td><td class=\"problem\">{}</td></tr>",
+        esc(kind),
+        esc(folder),
+        esc(&p.path),
+        esc(kind),
+        esc(folder),
+        num(q_peak),
+        q_peak.map(sig3).unwrap_or_default(),
+        num(srf),
+        srf.map(|f| eng(f, "Hz")).unwrap_or_default(),
+        esc(&first_failing_text(p, strict))
+    );
+}
+
+fn changed(
+    o: &mut String,
+    baseline: bool,
+    parts: &[PartReport],
+    id_of: &dyn Fn(&str) -> Option<String>,
+) {
+    if !baseline {
         return;
     }
-    let moves = drift_listed(r);
+    let moves = drift_listed_of(parts);
     let _ = writeln!(o, "<section id=\"changed\"><h2>Changed since baseline</h2>");
     if moves.is_empty() {
         let _ = writeln!(o, "<p>Nothing moved.</p></section>");
         return;
     }
-    let id_of: BTreeMap<&str, &str> = r
-        .parts
-        .iter()
-        .zip(ids)
-        .map(|(p, id)| (p.path.as_str(), id.as_str()))
-        .collect();
     let _ = writeln!(o, "<table class=\"drift\"><thead><tr><th>part</th><th>quantity</th><th>baseline</th><th>now</th><th>change</th><th>limit</th><th></th></tr></thead><tbody>");
     for (p, d) in moves {
         let (cls, word) = drift_word(d.status);
         let _ = writeln!(
             o,
             "<tr class=\"{cls}\"><td><a href=\"#{}\">{}</a></td><td><code>{}</code></td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{word}</td></tr>",
-            id_of.get(p.path.as_str()).copied().unwrap_or(""),
+            id_of(&p.path).unwrap_or_default(),
             esc(&p.path),
             esc(&d.quantity),
             esc(&show_value(&d.quantity, d.baseline)),
@@ -378,7 +439,7 @@ const KEY_FIGURES: [(&str, &str); 12] = [
     ("ports", "ports"),
 ];
 
-fn part_section(o: &mut String, r: &RunReport, p: &PartReport, id: &str) {
+fn part_section(o: &mut String, strict: bool, p: &PartReport, id: &str) {
     let st = p.status.as_str();
     let _ = writeln!(
         o,
@@ -420,7 +481,7 @@ fn part_section(o: &mut String, r: &RunReport, p: &PartReport, id: &str) {
             let word = check_word(c.status);
             let cls = if c.status == CheckStatus::Pass {
                 "ok"
-            } else if is_failure(c, r.strict) {
+            } else if is_failure(c, strict) {
                 "bad"
             } else {
                 "warn"

@@ -10,7 +10,7 @@ use std::io;
 use serde::Serialize;
 use serde_json::ser::{CompactFormatter, Formatter};
 
-use crate::verdict::RunReport;
+use crate::verdict::{PartReport, RunReport};
 
 /// The `lcgate-report/1` document, ending in a newline.
 pub fn json(r: &RunReport) -> String {
@@ -25,9 +25,78 @@ pub fn json(r: &RunReport) -> String {
 
 /// Write the `lcgate-report/1` document, ending in a newline, to `w`.
 pub fn json_to(r: &RunReport, w: &mut dyn io::Write) -> io::Result<()> {
-    let mut ser = serde_json::Serializer::with_formatter(&mut *w, ReportFormatter::default());
-    r.serialize(&mut ser).map_err(io::Error::other)?;
+    document(&super::head_of(r), w, |w| {
+        let mut buf = Vec::new();
+        for (i, p) in r.parts.iter().enumerate() {
+            buf.clear();
+            part_fragment(p, i == 0, &mut buf)?;
+            w.write_all(&buf)?;
+        }
+        Ok(())
+    })
+}
+
+/// The document around its parts: `head` is the report with no parts (its summary
+/// already counted), and `parts` writes the parts' fragments ([`part_fragment`]), in
+/// path order. This is how `report.json` streams: the parts are written as they are
+/// judged, and the head, which needs every count, last.
+pub(crate) fn document(
+    head: &RunReport,
+    w: &mut dyn io::Write,
+    parts: impl FnOnce(&mut dyn io::Write) -> io::Result<()>,
+) -> io::Result<()> {
+    let mut text = Vec::with_capacity(4096);
+    let mut ser = serde_json::Serializer::with_formatter(&mut text, ReportFormatter::default());
+    head.serialize(&mut ser).map_err(io::Error::other)?;
+    // the field with its indentation and line breaks: no string value holds a raw
+    // line break, so this occurs once, where the struct puts `parts`
+    const EMPTY: &[u8] = b"\n  \"parts\": [],\n";
+    let at = text
+        .windows(EMPTY.len())
+        .position(|x| x == EMPTY)
+        .ok_or_else(|| io::Error::other("report head without a parts field"))?;
+    let open = at + EMPTY.len() - 3; // just after `[`
+    let (before, after) = text.split_at(open);
+    w.write_all(before)?;
+    let mut counted = Counted { w, n: 0 };
+    parts(&mut counted)?;
+    if counted.n > 0 {
+        // the fragments wrote their own leading line breaks; close like the printer
+        w.write_all(b"\n  ")?;
+    }
+    w.write_all(after)?;
     w.write_all(b"\n")
+}
+
+/// A writer that counts what passes through (did any part get written?).
+struct Counted<'a> {
+    w: &'a mut dyn io::Write,
+    n: usize,
+}
+
+impl io::Write for Counted<'_> {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        let n = self.w.write(buf)?;
+        self.n += n;
+        Ok(n)
+    }
+    fn flush(&mut self) -> io::Result<()> {
+        self.w.flush()
+    }
+}
+
+/// One part as an element of the document's `parts` array, with the separator and
+/// indentation the whole-document printer would give it (`first`: no comma).
+pub(crate) fn part_fragment(p: &PartReport, first: bool, out: &mut Vec<u8>) -> io::Result<()> {
+    // the printer's state inside `{ "parts": [` of the top-level object
+    let state = ReportFormatter {
+        indent: 2,
+        arrays: vec![ArrayMode::Block, ArrayMode::Block],
+        pending: Some(first),
+        has_value: vec![true, true],
+    };
+    let mut ser = serde_json::Serializer::with_formatter(&mut *out, state);
+    p.serialize(&mut ser).map_err(io::Error::other)
 }
 
 /// How the current array prints: undecided until its first element is seen.
@@ -212,6 +281,51 @@ mod tests {
         let mut ser = serde_json::Serializer::with_formatter(&mut out, ReportFormatter::default());
         v.serialize(&mut ser).expect("serialize");
         String::from_utf8(out).expect("utf8")
+    }
+
+    /// The streamed document (head, then part fragments) is the whole report through
+    /// the printer in one go, byte for byte.
+    #[test]
+    fn streamed_document_equals_the_whole_printed_at_once() {
+        use crate::verdict::{PartStatus, RunInfo, Summary};
+        let part = |path: &str| PartReport {
+            path: path.into(),
+            status: PartStatus::Pass,
+            kind: None,
+            view: None,
+            figures: [("srf".to_string(), Some(1.5e10)), ("q".to_string(), None)]
+                .into_iter()
+                .collect(),
+            q_drop_cause: None,
+            checks: Vec::new(),
+            drift: Vec::new(),
+            new: false,
+            error: None,
+            plot: None,
+        };
+        for n in [0, 1, 3] {
+            let r = RunReport {
+                format: "lcgate-report/1".into(),
+                tool_version: "0".into(),
+                library: "lib \"parts\": [],".into(),
+                rules: Vec::new(),
+                baseline: None,
+                rules_changed: Vec::new(),
+                shard: None,
+                strict: false,
+                summary: Summary::default(),
+                passed: true,
+                parts: (0..n).map(|i| part(&format!("p{i}.s2p"))).collect(),
+                run: RunInfo::default(),
+            };
+            let mut streamed = Vec::new();
+            json_to(&r, &mut streamed).unwrap();
+            assert_eq!(
+                String::from_utf8(streamed).unwrap(),
+                fmt(&r) + "\n",
+                "{n} parts"
+            );
+        }
     }
 
     #[test]

@@ -10,7 +10,9 @@
 use quick_junit::{NonSuccessKind, Property, Report, TestCase, TestCaseStatus, TestSuite};
 
 use crate::units::eng;
-use crate::verdict::{CheckOutcome, CheckStatus, PartStatus, RunReport};
+use std::io;
+
+use crate::verdict::{CheckOutcome, CheckStatus, PartReport, PartStatus, RunReport};
 
 use super::{is_failure, is_warning, rules_order, show_change, show_value, suite_of};
 
@@ -25,33 +27,133 @@ pub const SUITE_BASELINE: &str = "changed since baseline";
 
 /// The JUnit XML document.
 pub fn junit(r: &RunReport) -> String {
-    let mut report = Report::new("lcgate");
-    for file in rules_order(r) {
-        let name = match suite_of(r, &file) {
-            Some(s) => format!("{file} ({s})"),
-            None => file.clone(),
-        };
-        let mut suite = TestSuite::new(name);
-        suite.add_property(Property::new("rules_file", file.as_str()));
-        if let Some(info) = r.rules.iter().find(|i| i.path == file) {
-            suite.add_property(Property::new("hash", info.hash.as_str()));
+    let plan = Plan::of(r);
+    let mut bodies = vec![Body::default(); plan.slots()];
+    for p in &r.parts {
+        for (slot, body) in plan.part_bodies(p, r.strict) {
+            bodies[slot].add(&body);
         }
-        for p in &r.parts {
-            for c in p.checks.iter().filter(|c| c.rules_file == file) {
-                suite.add_test_case(check_case(&p.path, c, r.strict));
-            }
-        }
-        report.add_test_suite(suite);
+    }
+    let mut out = Vec::new();
+    let written = plan.write(r, &bodies, &mut out, |slot, w| {
+        w.write_all(&bodies[slot].text)
+    });
+    match written.ok().and_then(|()| String::from_utf8(out).ok()) {
+        Some(s) => s,
+        // quick-junit only fails on I/O, which memory cannot give; keep a valid file.
+        None => "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n<testsuites name=\"lcgate\" tests=\"0\"><!-- not written --></testsuites>\n".to_string(),
+    }
+}
+
+/// The suites of the document, in order: one per rules file, then those of the
+/// unreadable, the unjudged and the unchecked parts, then drift and missing parts.
+/// A part's test cases go to these slots; the document is written from the slots'
+/// bodies, so it can be built as parts stream past (`report::stream`).
+#[derive(Debug, Clone)]
+pub(crate) struct Plan {
+    rules: Vec<String>,
+}
+
+const UNREADABLE: usize = 0;
+const UNJUDGED: usize = 1;
+const UNCHECKED: usize = 2;
+const BASELINE: usize = 3;
+
+/// Serialized test cases of one suite and their counts.
+#[derive(Debug, Clone, Default)]
+pub(crate) struct Body {
+    /// the cases as quick-junit writes them inside their suite (each line starting
+    /// with its line break and indentation)
+    pub text: Vec<u8>,
+    pub tests: usize,
+    pub failures: usize,
+    pub errors: usize,
+    pub skipped: usize,
+}
+
+impl Body {
+    pub(crate) fn add(&mut self, other: &Body) {
+        self.text.extend_from_slice(&other.text);
+        self.add_counts(other);
     }
 
-    let unreadable: Vec<_> = r
-        .parts
-        .iter()
-        .filter(|p| p.status == PartStatus::Unreadable)
-        .collect();
-    if !unreadable.is_empty() {
-        let mut suite = TestSuite::new(SUITE_UNREADABLE);
-        for p in unreadable {
+    pub(crate) fn add_counts(&mut self, other: &Body) {
+        self.tests += other.tests;
+        self.failures += other.failures;
+        self.errors += other.errors;
+        self.skipped += other.skipped;
+    }
+
+    /// The cases serialized by quick-junit inside a suite of their own, cut out of
+    /// that document: the same bytes they have in the whole one.
+    fn of(cases: Vec<TestCase>) -> Body {
+        let mut suite = TestSuite::new("cases");
+        suite.add_test_cases(cases);
+        let mut b = Body {
+            tests: suite.tests,
+            failures: suite.failures,
+            errors: suite.errors,
+            skipped: suite.skipped,
+            ..Body::default()
+        };
+        let mut report = Report::new("cases");
+        report.add_test_suite(suite);
+        if let Ok(doc) = report.to_string() {
+            let bytes = doc.as_bytes();
+            // after the `<testsuite …>` line, up to the line that closes it
+            let start = find(bytes, b"<testsuite ")
+                .and_then(|i| bytes[i..].iter().position(|&c| c == b'\n').map(|j| i + j));
+            let end = rfind(bytes, b"\n    </testsuite>");
+            if let (Some(start), Some(end)) = (start, end) {
+                if start <= end {
+                    b.text = bytes[start..end].to_vec();
+                }
+            }
+        }
+        b
+    }
+}
+
+fn find(hay: &[u8], needle: &[u8]) -> Option<usize> {
+    hay.windows(needle.len()).position(|w| w == needle)
+}
+
+fn rfind(hay: &[u8], needle: &[u8]) -> Option<usize> {
+    hay.windows(needle.len()).rposition(|w| w == needle)
+}
+
+impl Plan {
+    /// The plan of a report: its rules files (see `rules_order`).
+    pub(crate) fn of(r: &RunReport) -> Plan {
+        Plan {
+            rules: rules_order(r),
+        }
+    }
+
+    /// How many slots a part's cases can go to.
+    pub(crate) fn slots(&self) -> usize {
+        self.rules.len() + 4
+    }
+
+    fn fixed(&self, k: usize) -> usize {
+        self.rules.len() + k
+    }
+
+    /// A part's test cases, serialized, by slot (slots without cases left out).
+    pub(crate) fn part_bodies(&self, p: &PartReport, strict: bool) -> Vec<(usize, Body)> {
+        let mut out = Vec::new();
+        for (i, file) in self.rules.iter().enumerate() {
+            let cases: Vec<TestCase> = p
+                .checks
+                .iter()
+                .filter(|c| &c.rules_file == file)
+                .map(|c| check_case(&p.path, c, strict))
+                .collect();
+            if !cases.is_empty() {
+                out.push((i, Body::of(cases)));
+            }
+        }
+        if p.status == PartStatus::Unreadable {
             let mut st = TestCaseStatus::non_success(NonSuccessKind::Error);
             let why = p.error.as_deref().unwrap_or("unknown error");
             st.set_message(first_line(why));
@@ -59,114 +161,143 @@ pub fn junit(r: &RunReport) -> String {
             st.set_description(why);
             let mut tc = TestCase::new(format!("{} :: read", p.path), st);
             tc.set_classname(p.path.as_str());
-            suite.add_test_case(tc);
+            out.push((self.fixed(UNREADABLE), Body::of(vec![tc])));
         }
-        report.add_test_suite(suite);
-    }
-
-    // a part that was read but whose view or sidecar failed may have no check at all;
-    // without its own case it would fail the run and appear nowhere in the XML
-    let unjudged: Vec<_> = r
-        .parts
-        .iter()
-        .filter(|p| p.status != PartStatus::Unreadable)
-        .filter_map(|p| Some((p, p.error.as_deref()?)))
-        .collect();
-    if !unjudged.is_empty() {
-        let mut suite = TestSuite::new(SUITE_UNJUDGED);
-        for (p, why) in unjudged {
+        // a part that was read but whose view or sidecar failed may have no check at
+        // all; without its own case it would fail the run and appear nowhere in the XML
+        if let (false, Some(why)) = (p.status == PartStatus::Unreadable, p.error.as_deref()) {
             let mut st = TestCaseStatus::non_success(NonSuccessKind::Error);
             st.set_message(first_line(why));
             st.set_type("error");
             st.set_description(why);
             let mut tc = TestCase::new(format!("{} :: judge", p.path), st);
             tc.set_classname(p.path.as_str());
-            suite.add_test_case(tc);
+            out.push((self.fixed(UNJUDGED), Body::of(vec![tc])));
         }
-        report.add_test_suite(suite);
-    }
-
-    let unchecked: Vec<_> = r
-        .parts
-        .iter()
-        .filter(|p| p.status == PartStatus::Unchecked)
-        .collect();
-    if !unchecked.is_empty() {
-        let mut suite = TestSuite::new(SUITE_UNCHECKED);
-        for p in unchecked {
+        if p.status == PartStatus::Unchecked {
             let mut st = TestCaseStatus::skipped();
             st.set_message("no rule group selects this part; data checks only");
             let mut tc = TestCase::new(format!("{} :: rules", p.path), st);
             tc.set_classname(p.path.as_str());
-            suite.add_test_case(tc);
+            out.push((self.fixed(UNCHECKED), Body::of(vec![tc])));
         }
-        report.add_test_suite(suite);
+        let mut baseline = Vec::new();
+        if p.status == PartStatus::Missing {
+            let mut st = TestCaseStatus::non_success(NonSuccessKind::Failure);
+            st.set_message("in the baseline but no longer in the library");
+            st.set_type("missing");
+            let mut tc = TestCase::new(format!("{} :: present", p.path), st);
+            tc.set_classname(p.path.as_str());
+            baseline.push(tc);
+        }
+        for d in &p.drift {
+            baseline.push(drift_case(&p.path, d));
+        }
+        if !baseline.is_empty() {
+            out.push((self.fixed(BASELINE), Body::of(baseline)));
+        }
+        out
     }
 
-    let has_drift = r.parts.iter().any(|p| !p.drift.is_empty());
-    let missing: Vec<_> = r
-        .parts
-        .iter()
-        .filter(|p| p.status == PartStatus::Missing)
-        .collect();
-    if has_drift || !missing.is_empty() {
-        let mut suite = TestSuite::new(SUITE_BASELINE);
-        if let Some(b) = &r.baseline {
-            suite.add_property(Property::new("baseline", b.as_str()));
-        }
-        for p in &r.parts {
-            if p.status == PartStatus::Missing {
-                let mut st = TestCaseStatus::non_success(NonSuccessKind::Failure);
-                st.set_message("in the baseline but no longer in the library");
-                st.set_type("missing");
-                let mut tc = TestCase::new(format!("{} :: present", p.path), st);
-                tc.set_classname(p.path.as_str());
-                suite.add_test_case(tc);
+    /// Write the document: `head` gives the suites' names and properties, `bodies` the
+    /// counts of each slot, and `body(slot, w)` writes a slot's cases.
+    pub(crate) fn write(
+        &self,
+        head: &RunReport,
+        bodies: &[Body],
+        w: &mut dyn io::Write,
+        mut body: impl FnMut(usize, &mut dyn io::Write) -> io::Result<()>,
+    ) -> io::Result<()> {
+        let mut report = Report::new("lcgate");
+        let mut slots = Vec::new();
+        let empty = Body::default();
+        let mut suite_for = |slot: usize, mut suite: TestSuite, report: &mut Report| {
+            // a stand-in case marks where the slot's cases go; the counts are theirs
+            suite.add_test_case(TestCase::new(marker(slot), TestCaseStatus::success()));
+            let b = bodies.get(slot).unwrap_or(&empty);
+            suite.tests = b.tests;
+            suite.failures = b.failures;
+            suite.errors = b.errors;
+            suite.skipped = b.skipped;
+            report.add_test_suite(suite);
+            slots.push(slot);
+        };
+        for (i, file) in self.rules.iter().enumerate() {
+            let name = match suite_of(head, file) {
+                Some(s) => format!("{file} ({s})"),
+                None => file.clone(),
+            };
+            let mut suite = TestSuite::new(name);
+            suite.add_property(Property::new("rules_file", file.as_str()));
+            if let Some(info) = head.rules.iter().find(|i| &i.path == file) {
+                suite.add_property(Property::new("hash", info.hash.as_str()));
             }
-            for d in &p.drift {
-                let text = format!(
-                    "{}: {} -> {} ({}, limit {})",
-                    d.quantity,
-                    show_value(&d.quantity, d.baseline),
-                    show_value(&d.quantity, d.now),
-                    show_change(d),
-                    d.limit
-                );
-                let st = if d.status == CheckStatus::Pass {
-                    TestCaseStatus::success()
-                } else {
-                    let mut st = TestCaseStatus::non_success(NonSuccessKind::Failure);
-                    st.set_message(text.as_str());
-                    st.set_type(if d.status == CheckStatus::Fail {
-                        "drift"
-                    } else {
-                        "undecided"
-                    });
-                    st
-                };
-                let mut tc = TestCase::new(format!("{} :: drift {}", p.path, d.quantity), st);
-                tc.set_classname(p.path.as_str());
-                if d.status == CheckStatus::Pass {
-                    tc.set_system_out(text);
-                }
-                suite.add_test_case(tc);
+            suite_for(i, suite, &mut report);
+        }
+        let has = |k: usize| bodies.get(self.fixed(k)).is_some_and(|b| b.tests > 0);
+        for (k, name) in [
+            (UNREADABLE, SUITE_UNREADABLE),
+            (UNJUDGED, SUITE_UNJUDGED),
+            (UNCHECKED, SUITE_UNCHECKED),
+        ] {
+            if has(k) {
+                suite_for(self.fixed(k), TestSuite::new(name), &mut report);
             }
         }
-        report.add_test_suite(suite);
-    }
-
-    match report.to_string() {
-        Ok(s) => s + "\n",
-        // quick-junit only fails on I/O, which a String cannot give; keep a valid file.
-        Err(e) => format!(
-            "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n<testsuites name=\"lcgate\" tests=\"0\"><!-- {} --></testsuites>\n",
-            xml_comment_safe(&e.to_string())
-        ),
+        if has(BASELINE) {
+            let mut suite = TestSuite::new(SUITE_BASELINE);
+            if let Some(b) = &head.baseline {
+                suite.add_property(Property::new("baseline", b.as_str()));
+            }
+            suite_for(self.fixed(BASELINE), suite, &mut report);
+        }
+        let doc = report.to_string().map_err(io::Error::other)?;
+        let mut rest = doc.as_bytes();
+        for slot in slots {
+            let mark = format!("\n        <testcase name=\"{}\"/>", marker(slot));
+            let at = find(rest, mark.as_bytes())
+                .ok_or_else(|| io::Error::other("JUnit document without its marker"))?;
+            w.write_all(&rest[..at])?;
+            body(slot, w)?;
+            rest = &rest[at + mark.len()..];
+        }
+        w.write_all(rest)?;
+        w.write_all(b"\n")
     }
 }
 
-fn xml_comment_safe(s: &str) -> String {
-    s.replace("--", "- -")
+/// The stand-in case of a slot (no real case is named without ` :: `).
+fn marker(slot: usize) -> String {
+    format!("lcgate-cases-{slot}")
+}
+
+fn drift_case(path: &str, d: &crate::verdict::DriftOutcome) -> TestCase {
+    let text = format!(
+        "{}: {} -> {} ({}, limit {})",
+        d.quantity,
+        show_value(&d.quantity, d.baseline),
+        show_value(&d.quantity, d.now),
+        show_change(d),
+        d.limit
+    );
+    let st = if d.status == CheckStatus::Pass {
+        TestCaseStatus::success()
+    } else {
+        let mut st = TestCaseStatus::non_success(NonSuccessKind::Failure);
+        st.set_message(text.as_str());
+        st.set_type(if d.status == CheckStatus::Fail {
+            "drift"
+        } else {
+            "undecided"
+        });
+        st
+    };
+    let mut tc = TestCase::new(format!("{path} :: drift {}", d.quantity), st);
+    tc.set_classname(path);
+    if d.status == CheckStatus::Pass {
+        tc.set_system_out(text);
+    }
+    tc
 }
 
 fn first_line(s: &str) -> &str {

@@ -135,6 +135,25 @@ fn replace_file(
 // ---------------------------------------------------------------------------
 // Helpers shared by the writers.
 
+/// The report's header: everything but its parts (cheap to copy; the streamed
+/// writers start from it).
+pub(crate) fn head_of(r: &RunReport) -> RunReport {
+    RunReport {
+        format: r.format.clone(),
+        tool_version: r.tool_version.clone(),
+        library: r.library.clone(),
+        rules: r.rules.clone(),
+        baseline: r.baseline.clone(),
+        rules_changed: r.rules_changed.clone(),
+        shard: r.shard,
+        strict: r.strict,
+        summary: r.summary.clone(),
+        passed: r.passed,
+        parts: Vec::new(),
+        run: r.run.clone(),
+    }
+}
+
 /// A check that fails the run: not passed, and error-level (or any level with `--strict`).
 pub(crate) fn is_failure(c: &CheckOutcome, strict: bool) -> bool {
     c.status != CheckStatus::Pass && (c.severity == Severity::Error || strict)
@@ -224,11 +243,10 @@ pub(crate) fn drift_size(d: &DriftOutcome) -> f64 {
     }
 }
 
-/// Drift entries of all parts, failing (or undecided) first, then largest move first,
+/// Drift entries of these parts, failing (or undecided) first, then largest move first,
 /// then by path and quantity so that ties are ordered the same way every time.
-pub(crate) fn drift_moves(r: &RunReport) -> Vec<(&PartReport, &DriftOutcome)> {
-    let mut v: Vec<(&PartReport, &DriftOutcome)> = r
-        .parts
+pub(crate) fn drift_moves_of(parts: &[PartReport]) -> Vec<(&PartReport, &DriftOutcome)> {
+    let mut v: Vec<(&PartReport, &DriftOutcome)> = parts
         .iter()
         .flat_map(|p| p.drift.iter().map(move |d| (p, d)))
         .collect();
@@ -245,7 +263,12 @@ pub(crate) fn drift_moves(r: &RunReport) -> Vec<(&PartReport, &DriftOutcome)> {
 
 /// Moves worth listing: failing ones, and passing ones that moved at all.
 pub(crate) fn drift_listed(r: &RunReport) -> Vec<(&PartReport, &DriftOutcome)> {
-    drift_moves(r)
+    drift_listed_of(&r.parts)
+}
+
+/// [`drift_listed`] of some parts.
+pub(crate) fn drift_listed_of(parts: &[PartReport]) -> Vec<(&PartReport, &DriftOutcome)> {
+    drift_moves_of(parts)
         .into_iter()
         .filter(|(_, d)| d.status != CheckStatus::Pass || d.change.is_some_and(|c| c != 0.0))
         .collect()
