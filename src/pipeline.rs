@@ -125,116 +125,222 @@ pub struct Judging {
     pub judged: Vec<Judged>,
     /// the walk's and the cache's notes for the user
     pub notes: Vec<String>,
-    started: SystemTime,
-    clock: Instant,
+}
+
+/// What a run is made of before any part is judged.
+struct Prepared {
+    rules: RuleSet,
+    /// the run's parts (the shard's with `--shard`), sorted by path
+    parts: Vec<PartFile>,
+    cache: Option<Cache>,
+    notes: Vec<String>,
+    pool: Option<rayon::ThreadPool>,
+    strict: bool,
+}
+
+impl Prepared {
+    /// Load the rules, walk the library, take the shard's share, open the cache and
+    /// build the thread pool `opts.jobs` asks for.
+    fn new(opts: &RunOptions) -> Result<Prepared, RunError> {
+        if opts.rules.is_empty() {
+            return Err(RunError::NoRules);
+        }
+        let rules = rules::load(&opts.rules)?;
+        let walk = library::walk(
+            &opts.library,
+            &WalkOptions {
+                follow_links: opts.follow_links,
+            },
+        )?;
+        if walk.parts.is_empty() {
+            return Err(RunError::Empty(opts.library.to_string_lossy().into_owned()));
+        }
+        let mut parts: Vec<PartFile> = match opts.shard {
+            Some(shard) => walk
+                .parts
+                .into_iter()
+                .filter(|p| baseline::in_shard(&p.rel, shard))
+                .collect(),
+            None => walk.parts,
+        };
+        parts.sort_by(|a, b| a.rel.cmp(&b.rel));
+        let cache = match &opts.cache {
+            CacheChoice::Off => None,
+            CacheChoice::Default => Some(Cache::new(
+                Cache::default_dir(&opts.library),
+                &rules.infos(),
+                opts.strict,
+            )),
+            CacheChoice::Dir(d) => Some(Cache::new(d.clone(), &rules.infos(), opts.strict)),
+        };
+        let pool = match opts.jobs {
+            None => None,
+            Some(jobs) => Some(
+                rayon::ThreadPoolBuilder::new()
+                    .num_threads(jobs)
+                    .build()
+                    .map_err(|e| RunError::Threads {
+                        jobs,
+                        message: e.to_string(),
+                    })?,
+            ),
+        };
+        Ok(Prepared {
+            rules,
+            parts,
+            cache,
+            notes: walk.notes,
+            pool,
+            strict: opts.strict,
+        })
+    }
+
+    /// Run `f` on the run's thread pool.
+    fn install<T: Send>(&self, f: impl FnOnce() -> T + Send) -> T {
+        match &self.pool {
+            Some(pool) => pool.install(f),
+            None => f(),
+        }
+    }
+
+    /// Judge one part through the cache; the notes are the cache's.
+    fn judge(&self, part: &PartFile, progress: &dyn Progress) -> (Judged, Vec<String>) {
+        let mut notes = Vec::new();
+        let j = baseline::cache::judge(self.cache.as_ref(), part, &mut notes, || {
+            judge_part_guarded(part, &self.rules, self.strict)
+        });
+        progress.part_done(&part.rel);
+        (j, notes)
+    }
 }
 
 /// Load the rules, walk the library, take the shard's share, and judge every part
 /// (in parallel on `opts.jobs` threads, through the content-hash cache unless it is
 /// off). `opts.baseline` is not used here.
 pub fn judge_library(opts: &RunOptions, progress: &dyn Progress) -> Result<Judging, RunError> {
-    let started = SystemTime::now();
-    let clock = Instant::now();
-    if opts.rules.is_empty() {
-        return Err(RunError::NoRules);
-    }
-    let rules = rules::load(&opts.rules)?;
-    let walk = library::walk(
-        &opts.library,
-        &WalkOptions {
-            follow_links: opts.follow_links,
-        },
-    )?;
-    if walk.parts.is_empty() {
-        return Err(RunError::Empty(opts.library.to_string_lossy().into_owned()));
-    }
-    let parts: Vec<&PartFile> = match opts.shard {
-        Some(shard) => walk
-            .parts
-            .iter()
-            .filter(|p| baseline::in_shard(&p.rel, shard))
-            .collect(),
-        None => walk.parts.iter().collect(),
-    };
-    let cache = match &opts.cache {
-        CacheChoice::Off => None,
-        CacheChoice::Default => Some(Cache::new(
-            Cache::default_dir(&opts.library),
-            &rules.infos(),
-            opts.strict,
-        )),
-        CacheChoice::Dir(d) => Some(Cache::new(d.clone(), &rules.infos(), opts.strict)),
-    };
-    progress.begin(parts.len());
-
-    let judge_all = || -> Vec<(Judged, Vec<String>)> {
-        parts
+    let prep = Prepared::new(opts)?;
+    progress.begin(prep.parts.len());
+    let done: Vec<(Judged, Vec<String>)> = prep.install(|| {
+        prep.parts
             .par_iter()
-            .map(|part| {
-                let mut notes = Vec::new();
-                let j = baseline::cache::judge(cache.as_ref(), part, &mut notes, || {
-                    judge_part_guarded(part, &rules, opts.strict)
-                });
-                progress.part_done(&part.rel);
-                (j, notes)
-            })
+            .map(|part| prep.judge(part, progress))
             .collect()
-    };
-    let done = match opts.jobs {
-        None => judge_all(),
-        Some(jobs) => rayon::ThreadPoolBuilder::new()
-            .num_threads(jobs)
-            .build()
-            .map_err(|e| RunError::Threads {
-                jobs,
-                message: e.to_string(),
-            })?
-            .install(judge_all),
-    };
-    let mut notes = walk.notes.clone();
+    });
+    let mut notes = prep.notes.clone();
     let mut judged = Vec::with_capacity(done.len());
     for (j, n) in done {
         notes.extend(n);
         judged.push(j);
     }
     Ok(Judging {
-        rules,
+        rules: prep.rules,
         judged,
         notes,
-        started,
-        clock,
     })
 }
 
+/// Where a run's part reports go as they are made, in path order: the report writers
+/// of `--report DIR` ([`crate::report::ReportStream`]), or nothing.
+pub trait PartSink: Sync {
+    /// What the sink makes of one part away from the run's order (in parallel).
+    type Drawn: Send;
+    /// Told the run's header (no parts, no counts yet) and every part's path, in the
+    /// order the parts will come, before the first part.
+    fn begin(&mut self, head: &RunReport, paths: &[&str]);
+    /// Draw part `index` (its place in the run's order); called on worker threads.
+    fn draw(&self, part: &PartReport, index: usize) -> Self::Drawn;
+    /// Take the drawn part, in the run's order.
+    fn take(&mut self, part: &PartReport, drawn: Self::Drawn);
+}
+
+/// A [`PartSink`] that keeps nothing.
+pub struct NoSink;
+
+impl PartSink for NoSink {
+    type Drawn = ();
+    fn begin(&mut self, _: &RunReport, _: &[&str]) {}
+    fn draw(&self, _: &PartReport, _: usize) {}
+    fn take(&mut self, _: &PartReport, _: ()) {}
+}
+
+/// Which parts a run's [`RunReport`] keeps once the sink has taken them.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Keep {
+    /// every part, whole
+    All,
+    /// only the parts the terminal and Markdown summaries can name (see
+    /// [`is_notable`]), without their figures and plot: the run's memory then grows
+    /// with what needs attention, not with the library
+    Notable,
+}
+
+/// A part a summary names: anything but a clean pass (a failing or warning check,
+/// drift, an error, a new, missing, unreadable or unchecked part).
+pub fn is_notable(p: &PartReport) -> bool {
+    p.status != PartStatus::Pass
+        || p.new
+        || p.error.is_some()
+        || !p.drift.is_empty()
+        || p.checks.iter().any(|c| c.status != CheckStatus::Pass)
+}
+
+/// Parts judged together before their reports are handed on: enough to keep every
+/// core busy, few enough that only a handful of parts are ever held whole.
+const CHUNK: usize = 64;
+
+/// One entry of the run, in path order: a file to judge or a baseline part that is
+/// no longer in the library.
+enum Entry<'a> {
+    File(&'a PartFile),
+    Missing(PartReport),
+}
+
+impl Entry<'_> {
+    fn path(&self) -> &str {
+        match self {
+            Entry::File(p) => &p.rel,
+            Entry::Missing(r) => &r.path,
+        }
+    }
+}
+
 /// Run a check: judge the library (see [`judge_library`]), compare with the
-/// baseline if one is given, and sum up.
+/// baseline if one is given, and sum up. The report keeps every part.
 pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, RunError> {
+    run_into(opts, progress, &mut NoSink, Keep::All)
+}
+
+/// Run a check, handing each part's report to `sink` in path order as soon as its
+/// chunk is judged (and compared with the baseline), and keeping in the returned
+/// report the parts `keep` says. The summary counts every part.
+pub fn run_into<S: PartSink>(
+    opts: &RunOptions,
+    progress: &dyn Progress,
+    sink: &mut S,
+    keep: Keep,
+) -> Result<Outcome, RunError> {
+    let started = SystemTime::now();
+    let clock = Instant::now();
     // a baseline that cannot be used is found before any part is judged
     let base = opts.baseline.as_deref().map(Baseline::load).transpose()?;
-    let Judging {
-        rules,
-        judged,
-        notes,
-        started,
-        clock,
-    } = judge_library(opts, progress)?;
-    let infos = rules.infos();
-    let cached = judged.iter().filter(|j| j.cached).count();
-    let computed = judged.len() - cached;
-    let (parts, rules_changed) = match &base {
-        None => (
-            judged.into_iter().map(|j| j.report).collect::<Vec<_>>(),
-            Vec::new(),
-        ),
-        Some(b) => (
-            baseline::apply(judged, b, opts.shard, opts.strict, |m, before| {
-                compare_drift(&rules, m, before)
-            }),
-            baseline::rules_changed(&infos, b),
-        ),
+    let prep = Prepared::new(opts)?;
+    let infos = prep.rules.infos();
+    let rules_changed = match &base {
+        Some(b) => baseline::rules_changed(&infos, b),
+        None => Vec::new(),
     };
-    let summary = summarise(&parts);
-    let report = RunReport {
+    let mut entries: Vec<Entry> = prep.parts.iter().map(Entry::File).collect();
+    if let Some(b) = &base {
+        let present: std::collections::BTreeSet<&str> =
+            prep.parts.iter().map(|p| p.rel.as_str()).collect();
+        entries.extend(
+            baseline::missing(b, opts.shard, |p| present.contains(p))
+                .into_iter()
+                .map(Entry::Missing),
+        );
+        entries.sort_by(|a, b| a.path().cmp(b.path()));
+    }
+    let mut report = RunReport {
         format: REPORT_FORMAT.to_string(),
         tool_version: crate::TOOL_VERSION.to_string(),
         library: opts.library.to_string_lossy().into_owned(),
@@ -246,17 +352,93 @@ pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, R
         rules_changed,
         shard: opts.shard,
         strict: opts.strict,
-        passed: passed(&parts),
-        summary,
-        parts,
-        run: RunInfo {
-            started: rfc3339_utc(started),
-            seconds: clock.elapsed().as_secs_f64(),
-            computed,
-            cached,
-        },
+        passed: true,
+        summary: Summary::default(),
+        parts: Vec::new(),
+        run: RunInfo::default(),
+    };
+    let paths: Vec<&str> = entries.iter().map(Entry::path).collect();
+    sink.begin(&report, &paths);
+    drop(paths);
+    progress.begin(prep.parts.len());
+
+    let mut notes = prep.notes.clone();
+    let (mut computed, mut cached) = (0, 0);
+    for (c, chunk) in entries.chunks_mut(CHUNK).enumerate() {
+        let sink_view: &S = &*sink;
+        let done: Vec<(PartReport, S::Drawn, Vec<String>, Option<bool>)> = prep.install(|| {
+            chunk
+                .par_iter_mut()
+                .enumerate()
+                .map(|(i, entry)| {
+                    let (part, notes, was_cached) = match entry {
+                        Entry::File(file) => {
+                            let (j, notes) = prep.judge(file, progress);
+                            let was_cached = j.cached;
+                            let part = match &base {
+                                None => j.report,
+                                Some(b) => baseline::apply_one(j, b, opts.strict, |m, before| {
+                                    compare_drift(&prep.rules, m, before)
+                                }),
+                            };
+                            (part, notes, Some(was_cached))
+                        }
+                        Entry::Missing(r) => (
+                            std::mem::replace(r, missing_placeholder()),
+                            Vec::new(),
+                            None,
+                        ),
+                    };
+                    let drawn = sink_view.draw(&part, c * CHUNK + i);
+                    (part, drawn, notes, was_cached)
+                })
+                .collect()
+        });
+        for (part, drawn, n, was_cached) in done {
+            notes.extend(n);
+            match was_cached {
+                Some(true) => cached += 1,
+                Some(false) => computed += 1,
+                None => {}
+            }
+            count(&mut report.summary, &part);
+            report.passed &= part_passes(&part);
+            sink.take(&part, drawn);
+            match keep {
+                Keep::All => report.parts.push(part),
+                Keep::Notable if is_notable(&part) => report.parts.push(PartReport {
+                    figures: Default::default(),
+                    plot: None,
+                    ..part
+                }),
+                Keep::Notable => {}
+            }
+        }
+    }
+    report.run = RunInfo {
+        started: rfc3339_utc(started),
+        seconds: clock.elapsed().as_secs_f64(),
+        computed,
+        cached,
     };
     Ok(Outcome { report, notes })
+}
+
+/// What a missing entry leaves behind once its report is handed on (never read).
+fn missing_placeholder() -> PartReport {
+    PartReport {
+        path: String::new(),
+        status: PartStatus::Missing,
+        kind: None,
+        view: None,
+        figures: Default::default(),
+        q_drop_cause: None,
+        checks: Vec::new(),
+        drift: Vec::new(),
+        new: false,
+        error: None,
+        plot: None,
+    }
 }
 
 /// What `lcgate record` did.
@@ -343,38 +525,44 @@ pub fn fails_part(check: &CheckOutcome, strict: bool) -> bool {
 /// part at error level or undecided; `warnings`: warning-level checks that fail).
 /// (How many were computed or cached is a fact of the run: `RunInfo`.)
 pub fn summarise(parts: &[PartReport]) -> Summary {
-    let mut s = Summary {
-        parts: parts.len(),
-        ..Summary::default()
-    };
+    let mut s = Summary::default();
     for p in parts {
-        match p.status {
-            PartStatus::Pass => s.pass += 1,
-            PartStatus::Fail => s.fail += 1,
-            PartStatus::Unreadable => s.unreadable += 1,
-            PartStatus::Unchecked => s.unchecked += 1,
-            PartStatus::Missing => s.missing += 1,
-        }
-        if p.new {
-            s.new += 1;
-        }
-        for c in &p.checks {
-            match (c.status, c.severity) {
-                (CheckStatus::Pass, _) => {}
-                (CheckStatus::Fail, Severity::Warning) => s.warnings += 1,
-                _ => s.failed_checks += 1,
-            }
-        }
+        count(&mut s, p);
     }
     s
+}
+
+/// Add one part to the counts (see [`summarise`]).
+pub fn count(s: &mut Summary, p: &PartReport) {
+    s.parts += 1;
+    match p.status {
+        PartStatus::Pass => s.pass += 1,
+        PartStatus::Fail => s.fail += 1,
+        PartStatus::Unreadable => s.unreadable += 1,
+        PartStatus::Unchecked => s.unchecked += 1,
+        PartStatus::Missing => s.missing += 1,
+    }
+    if p.new {
+        s.new += 1;
+    }
+    for c in &p.checks {
+        match (c.status, c.severity) {
+            (CheckStatus::Pass, _) => {}
+            (CheckStatus::Fail, Severity::Warning) => s.warnings += 1,
+            _ => s.failed_checks += 1,
+        }
+    }
 }
 
 /// The run passes (exit 0) when every part passed or is unchecked: any failure,
 /// unreadable or missing part fails it (exit 1).
 pub fn passed(parts: &[PartReport]) -> bool {
-    parts
-        .iter()
-        .all(|p| matches!(p.status, PartStatus::Pass | PartStatus::Unchecked))
+    parts.iter().all(part_passes)
+}
+
+/// Does this part let the run pass (see [`passed`])?
+pub fn part_passes(p: &PartReport) -> bool {
+    matches!(p.status, PartStatus::Pass | PartStatus::Unchecked)
 }
 
 /// [`judge_part`], with a panic (a bug) turned into a failing part so one bad part

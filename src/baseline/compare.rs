@@ -28,50 +28,70 @@ pub fn apply(
     let present: BTreeSet<String> = judged.iter().map(|j| j.report.path.clone()).collect();
     let mut parts: Vec<PartReport> = judged
         .into_iter()
-        .map(|j| {
-            let mut r = j.report;
-            match baseline.part(&r.path) {
-                None => {
-                    r.new = true;
-                    if strict && matches!(r.status, PartStatus::Pass | PartStatus::Unchecked) {
-                        r.status = PartStatus::Fail;
-                        r.error.get_or_insert_with(|| {
-                            "new part, not in the baseline (a failure with --strict)".to_string()
-                        });
-                    }
-                }
-                Some(base) => {
-                    for m in &j.measures {
-                        // a quantity named after the baseline was recorded has nothing
-                        // to be compared with (the changed rules are named in the
-                        // report header)
-                        let Some(&before) = base.drift.get(&m.quantity) else {
-                            continue;
-                        };
-                        let Some(mut outcome) = compare(m, before) else {
-                            continue;
-                        };
-                        // undefined then and undefined now (an srf above the sweep
-                        // both times): nothing moved
-                        if before.is_none() && m.now.is_none() {
-                            outcome.status = CheckStatus::Pass;
-                        }
-                        r.drift.push(outcome);
-                    }
-                    let drifted = r.drift.iter().any(|d| d.status != CheckStatus::Pass);
-                    if drifted && matches!(r.status, PartStatus::Pass | PartStatus::Unchecked) {
-                        r.status = PartStatus::Fail;
-                    }
-                }
-            }
-            r
-        })
+        .map(|j| apply_one(j, baseline, strict, &compare))
         .collect();
-    for base in &baseline.parts {
-        if present.contains(&base.path) || shard.is_some_and(|s| !in_shard(&base.path, s)) {
-            continue;
+    parts.extend(missing(baseline, shard, |p| present.contains(p)));
+    parts.sort_by(|a, b| a.path.cmp(&b.path));
+    parts
+}
+
+/// [`apply`] for one judged part: its drift outcomes, or `new` when the baseline does
+/// not hold it.
+pub fn apply_one(
+    j: Judged,
+    baseline: &Baseline,
+    strict: bool,
+    compare: impl Fn(&Measure, Option<f64>) -> Option<DriftOutcome>,
+) -> PartReport {
+    let mut r = j.report;
+    match baseline.part(&r.path) {
+        None => {
+            r.new = true;
+            if strict && matches!(r.status, PartStatus::Pass | PartStatus::Unchecked) {
+                r.status = PartStatus::Fail;
+                r.error.get_or_insert_with(|| {
+                    "new part, not in the baseline (a failure with --strict)".to_string()
+                });
+            }
         }
-        parts.push(PartReport {
+        Some(base) => {
+            for m in &j.measures {
+                // a quantity named after the baseline was recorded has nothing to be
+                // compared with (the changed rules are named in the report header)
+                let Some(&before) = base.drift.get(&m.quantity) else {
+                    continue;
+                };
+                let Some(mut outcome) = compare(m, before) else {
+                    continue;
+                };
+                // undefined then and undefined now (an srf above the sweep both
+                // times): nothing moved
+                if before.is_none() && m.now.is_none() {
+                    outcome.status = CheckStatus::Pass;
+                }
+                r.drift.push(outcome);
+            }
+            let drifted = r.drift.iter().any(|d| d.status != CheckStatus::Pass);
+            if drifted && matches!(r.status, PartStatus::Pass | PartStatus::Unchecked) {
+                r.status = PartStatus::Fail;
+            }
+        }
+    }
+    r
+}
+
+/// A `missing` report for every part of the baseline (of the shard) that `present`
+/// does not know, in the baseline's order.
+pub fn missing(
+    baseline: &Baseline,
+    shard: Option<[usize; 2]>,
+    present: impl Fn(&str) -> bool,
+) -> Vec<PartReport> {
+    baseline
+        .parts
+        .iter()
+        .filter(|base| !present(&base.path) && shard.is_none_or(|s| in_shard(&base.path, s)))
+        .map(|base| PartReport {
             path: base.path.clone(),
             status: PartStatus::Missing,
             kind: base.kind,
@@ -83,10 +103,8 @@ pub fn apply(
             new: false,
             error: Some("in the baseline but no longer in the library".to_string()),
             plot: None,
-        });
-    }
-    parts.sort_by(|a, b| a.path.cmp(&b.path));
-    parts
+        })
+        .collect()
 }
 
 /// Rules files that differ from the baseline's: changed hash, added or dropped (by

@@ -26,7 +26,7 @@ use serde::{Deserialize, Serialize};
 use crate::verdict::PartReport;
 
 pub use cache::{Cache, Lookup};
-pub use compare::{apply, moves, rules_changed, Move};
+pub use compare::{apply, apply_one, missing, moves, rules_changed, Move};
 pub use document::{Baseline, BaselineError, BaselinePart, BASELINE_FORMAT};
 pub use merge::{merge, MergeError};
 pub use shard::{in_shard, shard_index};

@@ -9,7 +9,7 @@ use std::process::ExitCode;
 use clap::{Args, Parser, Subcommand};
 
 use crate::baseline::memo::{Remembered, RunInputs, RunMemo};
-use crate::pipeline::{self, CacheChoice, Progress, RunOptions};
+use crate::pipeline::{self, CacheChoice, Keep, NoSink, Progress, RunOptions};
 
 pub mod inspect;
 
@@ -309,8 +309,33 @@ fn check(a: &CheckArgs) -> Result<u8, Fatal> {
         print_out(&hit.stdout)?;
         return Ok(hit.exit);
     }
+    // the reports are drawn while the parts are judged (report::ReportStream), so
+    // only the parts a summary names stay in memory
+    let cannot_write = |dir: &std::path::Path, e: std::io::Error| {
+        Fatal(format!(
+            "cannot write the reports to `{}`: {e}",
+            dir.display()
+        ))
+    };
+    let mut stream = match &a.report {
+        None => None,
+        Some(dir) => {
+            std::fs::create_dir_all(dir).map_err(|e| {
+                Fatal(format!(
+                    "cannot create the report folder `{}`: {e}",
+                    dir.display()
+                ))
+            })?;
+            // a folder that cannot be written fails the command after the verdict
+            // is printed, as a failed write at the end does
+            Some(crate::report::ReportStream::new(dir))
+        }
+    };
     let bar = Bar::new(a.walk.quiet);
-    let outcome = pipeline::run_with(&opts, &bar);
+    let outcome = match &mut stream {
+        Some(Ok(s)) => pipeline::run_into(&opts, &bar, s, Keep::Notable),
+        _ => pipeline::run_into(&opts, &bar, &mut NoSink, Keep::Notable),
+    };
     bar.0.finish_and_clear();
     let outcome = outcome?;
     if !a.walk.quiet {
@@ -321,19 +346,10 @@ fn check(a: &CheckArgs) -> Result<u8, Fatal> {
     let report = &outcome.report;
     let stdout = crate::report::terminal(report, colour);
     print_out(&stdout)?;
-    if let Some(dir) = &a.report {
-        std::fs::create_dir_all(dir).map_err(|e| {
-            Fatal(format!(
-                "cannot create the report folder `{}`: {e}",
-                dir.display()
-            ))
-        })?;
-        crate::report::write_all(dir, report).map_err(|e| {
-            Fatal(format!(
-                "cannot write the reports to `{}`: {e}",
-                dir.display()
-            ))
-        })?;
+    if let (Some(dir), Some(stream)) = (&a.report, stream) {
+        stream
+            .and_then(|s| s.finish(report))
+            .map_err(|e| cannot_write(dir, e))?;
     }
     let exit = if report.passed { EXIT_PASS } else { EXIT_FAIL };
     if let Some(memo) = &memo {

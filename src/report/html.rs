@@ -160,29 +160,39 @@ impl Page<'_> {
 /// Element ids of the parts' sections: `part-` and the path with anything but letters,
 /// digits, `-` and `_` replaced by `-`; a number is added if two paths collide.
 pub fn part_ids(r: &RunReport) -> Vec<String> {
-    let mut seen = BTreeSet::new();
-    r.parts
-        .iter()
-        .map(|p| {
-            let slug: String = p
-                .path
-                .chars()
-                .map(|c| {
-                    if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
-                        c
-                    } else {
-                        '-'
-                    }
-                })
-                .collect();
-            let base = format!("part-{slug}");
-            let mut id = base.clone();
-            let mut k = 2;
-            while !seen.insert(id.clone()) {
-                id = format!("{base}-{k}");
-                k += 1;
+    let mut ids = PartIds::default();
+    r.parts.iter().map(|p| ids.next(&p.path)).collect()
+}
+
+/// Hands out [`part_ids`] one path at a time, in the page's order.
+#[derive(Default)]
+pub(crate) struct PartIds {
+    seen: BTreeSet<String>,
+}
+
+impl PartIds {
+    /// The id of the next part, by its path.
+    pub(crate) fn next(&mut self, path: &str) -> String {
+        let base = format!("part-{}", slug(path));
+        let mut id = base.clone();
+        let mut k = 2;
+        while !self.seen.insert(id.clone()) {
+            id = format!("{base}-{k}");
+            k += 1;
+        }
+        id
+    }
+}
+
+/// A path with anything but letters, digits, `-` and `_` replaced by `-`.
+pub(crate) fn slug(path: &str) -> String {
+    path.chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() || c == '-' || c == '_' {
+                c
+            } else {
+                '-'
             }
-            id
         })
         .collect()
 }

@@ -49,7 +49,7 @@ pub fn junit(r: &RunReport) -> String {
 /// unreadable, the unjudged and the unchecked parts, then drift and missing parts.
 /// A part's test cases go to these slots; the document is written from the slots'
 /// bodies, so it can be built as parts stream past (`report::stream`).
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, Default)]
 pub(crate) struct Plan {
     rules: Vec<String>,
 }

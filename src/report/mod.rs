@@ -20,38 +20,27 @@ mod json;
 mod junit;
 mod markdown;
 pub mod plot;
+mod stream;
 mod terminal;
 
 pub use html::{html, part_ids as html_part_ids};
 pub use json::json;
 pub use junit::junit;
 pub use markdown::markdown;
+pub use stream::{Drawn, ReportStream};
 pub use terminal::terminal;
 
 /// File names written by [`write_all`].
 pub const REPORT_FILES: [&str; 4] = ["report.json", "report.xml", "report.md", "report.html"];
 
 /// Write `report.json`, `report.xml`, `report.md` and `report.html` into `dir`
-/// (created if needed), each atomically. The HTML page (the costliest: a chart per
-/// part) is drawn on one thread while the other three are written on another. An
-/// error names the path that failed; when both sides fail, the first file's error in
-/// [`REPORT_FILES`] order is the one returned.
+/// (created if needed), each atomically, through a [`ReportStream`] (the parts' pieces
+/// drawn in parallel). An error names the path that failed.
 pub fn write_all(dir: &Path, r: &RunReport) -> io::Result<()> {
-    fs::create_dir_all(dir).map_err(|e| with_path(dir, e))?;
-    let write = |name: &str, text: String| atomic_write(&dir.join(name), text.as_bytes());
-    // the two large documents stream into their files, never held whole in memory
-    let (page, rest) = rayon::join(
-        || atomic_write_stream(&dir.join(REPORT_FILES[3]), |w| html::html_to(r, w)),
-        || -> io::Result<()> {
-            atomic_write_stream(&dir.join(REPORT_FILES[0]), |w| json::json_to(r, w))?;
-            write(REPORT_FILES[1], junit(r))?;
-            write(REPORT_FILES[2], markdown(r))
-        },
-    );
-    rest.and(page)
+    stream::write_report(dir, r)
 }
 
-fn with_path(path: &Path, e: io::Error) -> io::Error {
+pub(crate) fn with_path(path: &Path, e: io::Error) -> io::Error {
     io::Error::new(e.kind(), format!("{}: {e}", path.display()))
 }
 
