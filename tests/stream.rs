@@ -1,0 +1,116 @@
+//! Streamed reports (performance issue: memory of a run grows with its largest file,
+//! not with the library). `check --report` draws every part's pieces as it is judged
+//! and keeps only the parts a summary names; these tests hold that run to the
+//! straightforward one, which keeps every part whole and writes the reports from the
+//! finished report: the same four files byte for byte, the same terminal summary,
+//! the same counts.
+
+use std::path::{Path, PathBuf};
+
+use lcgate::pipeline::{self, CacheChoice, Keep, NoProgress, RunOptions};
+use lcgate::report::{self, ReportStream, REPORT_FILES};
+
+fn root() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+}
+
+fn compare_runs(opts: &RunOptions) {
+    let whole = pipeline::run_with(opts, &NoProgress).expect("run").report;
+    let a = tempfile::tempdir().unwrap();
+    report::write_all(a.path(), &whole).expect("reports written");
+
+    let b = tempfile::tempdir().unwrap();
+    let mut stream = ReportStream::new(b.path()).expect("stream");
+    let mut kept = pipeline::run_into(opts, &NoProgress, &mut stream, Keep::Notable)
+        .expect("run")
+        .report;
+    // the run's time is the one thing that differs between two runs
+    kept.run = whole.run.clone();
+    stream.finish(&kept).expect("streamed reports written");
+
+    assert_eq!(kept.summary, whole.summary);
+    assert_eq!(kept.passed, whole.passed);
+    assert!(kept.parts.len() <= whole.parts.len());
+    assert!(kept.parts.iter().all(|p| p.plot.is_none()));
+    for name in REPORT_FILES {
+        let x = std::fs::read(a.path().join(name)).unwrap();
+        let y = std::fs::read(b.path().join(name)).unwrap();
+        assert!(x == y, "{name} differs between the streamed and the whole run");
+    }
+    for colour in [false, true] {
+        assert_eq!(
+            report::terminal(&kept, colour),
+            report::terminal(&whole, colour)
+        );
+    }
+    assert_eq!(report::markdown(&kept), report::markdown(&whole));
+    // nothing but the four reports is left in the folder (the spills are unnamed)
+    let mut left: Vec<String> = std::fs::read_dir(b.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().into_owned())
+        .collect();
+    left.sort();
+    let mut want: Vec<String> = REPORT_FILES.iter().map(|s| s.to_string()).collect();
+    want.sort();
+    assert_eq!(left, want);
+}
+
+fn opts(library: &Path, rules: &Path) -> RunOptions {
+    RunOptions {
+        library: library.to_path_buf(),
+        rules: vec![rules.to_path_buf()],
+        cache: CacheChoice::Off,
+        ..RunOptions::default()
+    }
+}
+
+/// The sample library against its baseline: failures, warnings, drift, new and
+/// missing parts.
+#[test]
+fn sample_library_with_its_baseline_streams_to_the_same_reports() {
+    let r = root();
+    let mut o = opts(&r.join("sample-library"), &r.join("rules"));
+    o.baseline = Some(r.join("sample-library/baseline.json"));
+    compare_runs(&o);
+    o.strict = true;
+    o.jobs = Some(1);
+    compare_runs(&o);
+}
+
+/// The small test library: unreadable files, parts no rule selects, undecided checks.
+#[test]
+fn small_library_streams_to_the_same_reports() {
+    let r = root();
+    compare_runs(&opts(
+        &r.join("tests/data/lib-small"),
+        &r.join("tests/data/lib-small-rules"),
+    ));
+}
+
+/// A library whose paths collide once made into element ids (`a b` and `a-b`): the
+/// streamed page numbers them as the whole one does.
+#[test]
+fn colliding_element_ids_stream_the_same() {
+    let tmp = tempfile::tempdir().unwrap();
+    let lib = tmp.path().join("lib");
+    std::fs::create_dir_all(&lib).unwrap();
+    // a series 2 nH + 1 Ω as a one-port, in Touchstone 1.0 RI form (Z = R + jωL,
+    // S11 = (Z − 50)/(Z + 50), Pozar §4.3)
+    let mut text = String::from("# GHz S RI R 50\n");
+    for i in 1..=20 {
+        let f = i as f64 * 1e9;
+        let z = num_complex::Complex64::new(1.0, 2.0 * std::f64::consts::PI * f * 2e-9);
+        let s = (z - 50.0) / (z + 50.0);
+        text.push_str(&format!("{} {} {}\n", i, s.re, s.im));
+    }
+    for name in ["a b.s1p", "a-b.s1p", "a_b.s1p", "a.b.s1p"] {
+        std::fs::write(lib.join(name), &text).unwrap();
+    }
+    let rules = tmp.path().join("rules.yaml");
+    std::fs::write(
+        &rules,
+        "suite: ids\nparts:\n  - select: [\"*.s1p\"]\n    kind: inductor\n    checks:\n      l-set: l(1GHz) >= 1nH\n",
+    )
+    .unwrap();
+    compare_runs(&opts(&lib, &rules));
+}
