@@ -35,7 +35,10 @@ fn compare_runs(opts: &RunOptions) {
     for name in REPORT_FILES {
         let x = std::fs::read(a.path().join(name)).unwrap();
         let y = std::fs::read(b.path().join(name)).unwrap();
-        assert!(x == y, "{name} differs between the streamed and the whole run");
+        assert!(
+            x == y,
+            "{name} differs between the streamed and the whole run"
+        );
     }
     for colour in [false, true] {
         assert_eq!(

@@ -78,15 +78,17 @@ impl ReportStream {
     /// replaced by [`finish`](Self::finish).
     pub fn new(dir: &Path) -> io::Result<ReportStream> {
         std::fs::create_dir_all(dir).map_err(|e| super::with_path(dir, e))?;
-        let spill = || Spill::new(dir).map_err(|e| super::with_path(dir, e));
+        // a spill that cannot be made is named after the report it was for
+        let spill =
+            |report: &str| Spill::new(dir).map_err(|e| super::with_path(&dir.join(report), e));
         Ok(ReportStream {
             dir: dir.to_path_buf(),
             strict: false,
             plan: Plan::default(),
             renamed: BTreeMap::new(),
-            json: spill()?,
-            rows: spill()?,
-            sections: spill()?,
+            json: spill(REPORT_FILES[0])?,
+            rows: spill(REPORT_FILES[3])?,
+            sections: spill(REPORT_FILES[3])?,
             junit: Vec::new(),
             counts: Vec::new(),
             kinds: BTreeSet::new(),
@@ -110,7 +112,9 @@ impl ReportStream {
             match Spill::new(&self.dir) {
                 Ok(s) => self.junit.push(s),
                 Err(e) => {
-                    self.fail(e);
+                    if self.error.is_none() {
+                        self.error = Some(super::with_path(&self.dir.join(REPORT_FILES[1]), e));
+                    }
                     break;
                 }
             }
