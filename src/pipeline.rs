@@ -292,7 +292,7 @@ const CHUNK: usize = 64;
 /// no longer in the library.
 enum Entry<'a> {
     File(&'a PartFile),
-    Missing(PartReport),
+    Missing(Box<PartReport>),
 }
 
 impl Entry<'_> {
@@ -336,7 +336,7 @@ pub fn run_into<S: PartSink>(
         entries.extend(
             baseline::missing(b, opts.shard, |p| present.contains(p))
                 .into_iter()
-                .map(Entry::Missing),
+                .map(|r| Entry::Missing(Box::new(r))),
         );
         entries.sort_by(|a, b| a.path().cmp(b.path()));
     }
@@ -366,7 +366,7 @@ pub fn run_into<S: PartSink>(
     let (mut computed, mut cached) = (0, 0);
     for (c, chunk) in entries.chunks_mut(CHUNK).enumerate() {
         let sink_view: &S = &*sink;
-        let done: Vec<(PartReport, S::Drawn, Vec<String>, Option<bool>)> = prep.install(|| {
+        let done: Vec<Done<S::Drawn>> = prep.install(|| {
             chunk
                 .par_iter_mut()
                 .enumerate()
@@ -384,7 +384,7 @@ pub fn run_into<S: PartSink>(
                             (part, notes, Some(was_cached))
                         }
                         Entry::Missing(r) => (
-                            std::mem::replace(r, missing_placeholder()),
+                            std::mem::replace(&mut **r, missing_placeholder()),
                             Vec::new(),
                             None,
                         ),
@@ -423,6 +423,10 @@ pub fn run_into<S: PartSink>(
     };
     Ok(Outcome { report, notes })
 }
+
+/// A judged entry: its report, what the sink drew of it, the cache's notes, and
+/// whether the cache served it (None: a missing part, nothing was judged).
+type Done<D> = (PartReport, D, Vec<String>, Option<bool>);
 
 /// What a missing entry leaves behind once its report is handed on (never read).
 fn missing_placeholder() -> PartReport {
