@@ -364,11 +364,11 @@ pub fn run_into<S: PartSink>(
 
     let mut notes = prep.notes.clone();
     let (mut computed, mut cached) = (0, 0);
-    for (c, chunk) in entries.chunks_mut(CHUNK).enumerate() {
+    for (c, chunk) in entries.chunks(CHUNK).enumerate() {
         let sink_view: &S = &*sink;
         let done: Vec<Done<S::Drawn>> = prep.install(|| {
             chunk
-                .par_iter_mut()
+                .par_iter()
                 .enumerate()
                 .map(|(i, entry)| {
                     let (part, notes, was_cached) = match entry {
@@ -383,11 +383,8 @@ pub fn run_into<S: PartSink>(
                             };
                             (part, notes, Some(was_cached))
                         }
-                        Entry::Missing(r) => (
-                            std::mem::replace(&mut **r, missing_placeholder()),
-                            Vec::new(),
-                            None,
-                        ),
+                        // a missing part's report is small: no figures, no plot
+                        Entry::Missing(r) => ((**r).clone(), Vec::new(), None),
                     };
                     let drawn = sink_view.draw(&part, c * CHUNK + i);
                     (part, drawn, notes, was_cached)
@@ -427,23 +424,6 @@ pub fn run_into<S: PartSink>(
 /// A judged entry: its report, what the sink drew of it, the cache's notes, and
 /// whether the cache served it (None: a missing part, nothing was judged).
 type Done<D> = (PartReport, D, Vec<String>, Option<bool>);
-
-/// What a missing entry leaves behind once its report is handed on (never read).
-fn missing_placeholder() -> PartReport {
-    PartReport {
-        path: String::new(),
-        status: PartStatus::Missing,
-        kind: None,
-        view: None,
-        figures: Default::default(),
-        q_drop_cause: None,
-        checks: Vec::new(),
-        drift: Vec::new(),
-        new: false,
-        error: None,
-        plot: None,
-    }
-}
 
 /// What `lcgate record` did.
 #[derive(Debug, Clone)]
