@@ -33,34 +33,68 @@ fn one() -> C64 {
     C64::new(1.0, 0.0)
 }
 
+/// |c| as √(re² + im²) where the squares can neither overflow nor lose precision to
+/// underflow, else `norm` (hypot). Within an ulp or so of `norm` and several times
+/// cheaper (glibc's hypot is a call that rescales); for thresholds and estimates,
+/// where the last bit decides nothing. 0 exactly when c is 0.
+pub fn magnitude(c: C64) -> f64 {
+    let m = c.re.abs().max(c.im.abs());
+    if m > 1e-150 && m < 1e150 {
+        (c.re * c.re + c.im * c.im).sqrt()
+    } else {
+        c.norm()
+    }
+}
+
 fn all_finite(v: &[C64]) -> bool {
     v.iter().all(|c| c.re.is_finite() && c.im.is_finite())
+}
+
+/// `x.norm() > y.norm()`, decided on the squared magnitudes (no hypot) unless they
+/// are within 1e-12 of each other or outside the range where squaring keeps their
+/// precision: always the same answer, so the same pivots and the same digits.
+fn larger(x: C64, y: C64) -> bool {
+    let (u, v) = (x.norm_sqr(), y.norm_sqr());
+    let safe = |w: f64| w > 1e-290 && w < 1e290;
+    if safe(u) && safe(v) && (u - v).abs() > 1e-12 * u.max(v) {
+        u > v
+    } else {
+        x.norm() > y.norm()
+    }
 }
 
 /// Solve A X = B for N×N row-major A, B by Gaussian elimination with partial
 /// pivoting (Golub & Van Loan, *Matrix Computations*, §3.4). None when A is
 /// (numerically) singular: a pivot, i.e. a diagonal entry of U, at or below
 /// `SINGULAR_TOL · max|a_ij|`. Written out rather than through a general matrix type
-/// because it runs once per sweep point per conversion, and the blocks are small:
-/// no allocation but the result.
+/// because it runs once per sweep point per conversion, and the blocks are small.
 fn solve(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
-    let scale = a.iter().map(|c| c.norm()).fold(0.0, f64::max);
-    if !(scale.is_finite()) || scale == 0.0 || a.len() != n * n || b.len() != n * n {
-        return None;
+    solve_owned(a.to_vec(), b.to_vec(), n)
+}
+
+/// [`solve`] taking its operands: no allocation but the ones given.
+fn solve_owned(mut a: Vec<C64>, mut x: Vec<C64>, n: usize) -> Option<Vec<C64>> {
+    solve_in_place(&mut a, &mut x, n).then_some(x)
+}
+
+/// [`solve`] in place: A is overwritten by its LU factors, B by X. False when A is
+/// singular or X is not finite (A and B are then garbage).
+fn solve_in_place(a: &mut [C64], x: &mut [C64], n: usize) -> bool {
+    let scale = a.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
+    if !(scale.is_finite()) || scale == 0.0 || a.len() != n * n || x.len() != n * n {
+        return false;
     }
     let zero = C64::new(0.0, 0.0);
-    let mut a = a.to_vec();
-    let mut x = b.to_vec();
     for c in 0..n {
         let mut p = c;
         for r in c + 1..n {
-            if a[r * n + c].norm() > a[p * n + c].norm() {
+            if larger(a[r * n + c], a[p * n + c]) {
                 p = r;
             }
         }
-        let pivot = a[p * n + c].norm();
+        let pivot = magnitude(a[p * n + c]);
         if pivot.is_nan() || pivot <= SINGULAR_TOL * scale {
-            return None;
+            return false;
         }
         if p != c {
             for j in 0..n {
@@ -99,14 +133,14 @@ fn solve(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
             }
         }
     }
-    all_finite(&x).then_some(x)
+    all_finite(x)
 }
 
 /// Solve A X = B for 2×2 row-major by Cramer's rule.
 fn solve2(a: &[C64], b: &[C64]) -> Option<Vec<C64>> {
     let det = a[0] * a[3] - a[1] * a[2];
-    let scale = a.iter().map(|c| c.norm()).fold(0.0, f64::max);
-    if !(scale.is_finite()) || scale == 0.0 || det.norm() <= SINGULAR_TOL * scale * scale {
+    let scale = a.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
+    if !(scale.is_finite()) || scale == 0.0 || magnitude(det) <= SINGULAR_TOL * scale * scale {
         return None;
     }
     let inv = [a[3] / det, -a[1] / det, -a[2] / det, a[0] / det];
@@ -149,7 +183,7 @@ fn scale_dd(m: &mut [C64], n: usize, z0: &[f64], pow: f64) {
 /// The general path: Xn = (I + sa·S)⁻¹ (I + sb·S), used by S→Z (sa=−1, sb=+1) and
 /// S→Y (sa=+1, sb=−1).
 fn from_s_general(s: &[C64], n: usize, sa: f64, sb: f64) -> Option<Vec<C64>> {
-    solve(&eye_plus(s, n, sa), &eye_plus(s, n, sb), n)
+    solve_owned(eye_plus(s, n, sa), eye_plus(s, n, sb), n)
 }
 
 /// S = (P + I)⁻¹ (P − I) for P = Zn (sign +1) or S = (I + P)⁻¹ (I − P) for P = Yn
@@ -160,7 +194,7 @@ fn to_s_general(p: &[C64], n: usize, sign: f64) -> Option<Vec<C64>> {
     for i in 0..n {
         b[i * n + i] -= one() * sign;
     }
-    solve(&a, &b, n)
+    solve_owned(a, b, n)
 }
 
 /// Closed 2-port form of Xn = (I + sa·S)⁻¹ (I + sb·S) with sa = −sb (Pozar Table 4.2:
@@ -170,8 +204,8 @@ fn from_s_2(s: &[C64], sb: f64) -> Option<Vec<C64>> {
     let (s11, s12, s21, s22) = (s[0], s[1], s[2], s[3]);
     let a = [one() - s11 * sb, -s12 * sb, -s21 * sb, one() - s22 * sb];
     let det = a[0] * a[3] - a[1] * a[2];
-    let scale = a.iter().map(|c| c.norm()).fold(0.0, f64::max);
-    if scale == 0.0 || det.norm() <= SINGULAR_TOL * scale * scale {
+    let scale = a.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
+    if scale == 0.0 || magnitude(det) <= SINGULAR_TOL * scale * scale {
         return None;
     }
     let p = s12 * s21;
@@ -191,8 +225,8 @@ fn to_s_2(p: &[C64], sign: f64) -> Option<Vec<C64>> {
     let (p11, p12, p21, p22) = (p[0], p[1], p[2], p[3]);
     let a = [one() + p11, p12, p21, one() + p22];
     let det = a[0] * a[3] - a[1] * a[2];
-    let scale = a.iter().map(|c| c.norm()).fold(0.0, f64::max);
-    if !(scale.is_finite()) || scale == 0.0 || det.norm() <= SINGULAR_TOL * scale * scale {
+    let scale = a.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
+    if !(scale.is_finite()) || scale == 0.0 || magnitude(det) <= SINGULAR_TOL * scale * scale {
         return None;
     }
     let q = p12 * p21;
@@ -308,6 +342,12 @@ pub fn solve_block(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
         2 => solve2(a, b),
         _ => solve(a, b, n),
     }
+}
+
+/// [`solve_block`] for N > 2 without allocating: A is overwritten by its LU factors
+/// and B by X. False when A is singular (A and B are then garbage).
+pub fn solve_block_in_place(a: &mut [C64], b: &mut [C64], n: usize) -> bool {
+    n > 2 && solve_in_place(a, b, n)
 }
 
 #[cfg(test)]

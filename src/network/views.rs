@@ -17,6 +17,8 @@
 //!   over the four winding ports (solved, not inverted); for a 4-port whose Y is
 //!   singular, Z_w = Tᵀ Z T from the Z matrix.
 
+use rayon::prelude::*;
+
 use super::{convert, Network, PortMap, View, ViewName, C64};
 
 /// Why a view cannot be made from a network.
@@ -126,6 +128,22 @@ fn arr4(v: &[C64]) -> [C64; 4] {
     [v[0], v[1], v[2], v[3]]
 }
 
+/// `f` at every point of `net`, or the first point where it gives None. The points
+/// are independent and a long sweep's solves dominate a view, so they run in
+/// parallel; the failing point is found again in order, so the error is the same for
+/// any thread count.
+fn per_point<T: Send>(
+    net: &Network,
+    f: impl Fn(usize) -> Option<T> + Sync,
+) -> Result<Vec<T>, usize> {
+    let all: Option<Vec<T>> = (0..net.points())
+        .into_par_iter()
+        .with_min_len(1024)
+        .map(&f)
+        .collect();
+    all.ok_or_else(|| (0..net.points()).find(|&k| f(k).is_none()).unwrap_or(0))
+}
+
 /// Reduce `net` to the view `name`, with `ports` naming which ports play which role.
 pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, ViewError> {
     let n = net.ports;
@@ -145,11 +163,7 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
                     found: n,
                 });
             }
-            let mut y_in = Vec::with_capacity(net.points());
-            for k in 0..net.points() {
-                let y = net.y_block(k).ok_or_else(|| singular(k))?;
-                y_in.push(y[0]);
-            }
+            let y_in = per_point(net, |k| net.y_block(k).map(|y| y[0])).map_err(singular)?;
             Ok(View::Driving {
                 name,
                 y_in,
@@ -176,18 +190,17 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
             } else {
                 check_ports(name, &ports.pair, n)?
             };
-            let mut y_in = Vec::with_capacity(net.points());
-            let mut two = Vec::with_capacity(net.points());
-            for k in 0..net.points() {
-                let y = arr4(&y_sub(net, k, &idx).ok_or_else(|| singular(k))?);
+            let both = per_point(net, |k| {
+                let y = arr4(&y_sub(net, k, &idx)?);
                 let yin = if name == ViewName::SingleEnded {
                     y[0]
                 } else {
-                    differential_y(&y).ok_or_else(|| singular(k))?
+                    differential_y(&y)?
                 };
-                y_in.push(yin);
-                two.push(y);
-            }
+                Some((yin, y))
+            })
+            .map_err(singular)?;
+            let (y_in, two) = both.into_iter().unzip();
             Ok(View::Driving {
                 name,
                 y_in,
@@ -204,11 +217,7 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
             }
             let w = ports.windings;
             let idx = check_ports(name, &[w[0][0], w[0][1], w[1][0], w[1][1]], n)?;
-            let mut z = Vec::with_capacity(net.points());
-            for k in 0..net.points() {
-                let zw = winding_z(net, k, &idx).ok_or_else(|| singular(k))?;
-                z.push(zw);
-            }
+            let z = per_point(net, |k| winding_z(net, k, &idx)).map_err(singular)?;
             Ok(View::Windings { name, z })
         }
     }
@@ -222,29 +231,25 @@ fn winding_z(net: &Network, k: usize, idx: &[usize]) -> Option<[C64; 4]> {
     let one = C64::new(1.0, 0.0);
     let zero = C64::new(0.0, 0.0);
     let t = [[one, zero], [-one, zero], [zero, one], [zero, -one]];
-    let tt_m_t = |m: &[C64]| -> [C64; 4] {
-        // Tᵀ M T for a 4×4 row-major M (local order)
-        let mut out = [zero; 4];
-        for (r, out_r) in out.chunks_mut(2).enumerate() {
-            for (c, o) in out_r.iter_mut().enumerate() {
-                let mut acc = zero;
-                for i in 0..4 {
-                    for j in 0..4 {
-                        acc += t[i][r] * m[i * 4 + j] * t[j][c];
-                    }
-                }
-                *o = acc;
+    let n = net.ports;
+    // the 4×4 block of `m` (N×N) over the winding ports, in the local order
+    let local = |m: &[C64]| -> [C64; 16] {
+        let mut out = [zero; 16];
+        for (a, &i) in idx.iter().enumerate() {
+            for (b, &j) in idx.iter().enumerate() {
+                out[a * 4 + b] = m[i * n + j];
             }
         }
         out
     };
-    if let Some(y4) = y_sub(net, k, idx) {
-        let mut rhs = vec![zero; 16];
+    if let Some(y) = net.y_block(k) {
+        let mut y4 = local(&y);
+        let mut x = [zero; 16];
         for i in 0..4 {
-            rhs[i * 4] = t[i][0];
-            rhs[i * 4 + 1] = t[i][1];
+            x[i * 4] = t[i][0];
+            x[i * 4 + 1] = t[i][1];
         }
-        if let Some(x) = convert::solve_block(&y4, &rhs, 4) {
+        if convert::solve_block_in_place(&mut y4, &mut x, 4) {
             // Tᵀ X: X's first two columns are Y₄⁻¹ T
             let mut out = [zero; 4];
             for r in 0..2 {
@@ -255,15 +260,22 @@ fn winding_z(net: &Network, k: usize, idx: &[usize]) -> Option<[C64; 4]> {
             return Some(out);
         }
     }
-    if net.ports == 4 {
-        let z = net.z_block(k)?;
-        let mut local = vec![zero; 16];
-        for (a, &i) in idx.iter().enumerate() {
-            for (b, &j) in idx.iter().enumerate() {
-                local[a * 4 + b] = z[i * 4 + j];
+    if n == 4 {
+        let z = local(&net.z_block(k)?);
+        // Tᵀ Z T
+        let mut out = [zero; 4];
+        for (r, out_r) in out.chunks_mut(2).enumerate() {
+            for (c, o) in out_r.iter_mut().enumerate() {
+                let mut acc = zero;
+                for i in 0..4 {
+                    for j in 0..4 {
+                        acc += t[i][r] * z[i * 4 + j] * t[j][c];
+                    }
+                }
+                *o = acc;
             }
         }
-        return Some(tt_m_t(&local));
+        return Some(out);
     }
     None
 }
