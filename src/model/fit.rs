@@ -47,9 +47,14 @@ impl Drive {
 impl PiModel {
     /// Input admittance of the model under `drive`.
     pub fn y_drive(&self, f: f64, drive: Drive) -> C64 {
+        self.series_y(f) + self.shunt_drive(f, drive)
+    }
+
+    /// The shunt part of [`PiModel::y_drive`]: Y_sh1, or the two shunts in series.
+    pub fn shunt_drive(&self, f: f64, drive: Drive) -> C64 {
         match drive {
-            Drive::Grounded => self.y_one_port(f),
-            Drive::Floating => self.y_differential(f),
+            Drive::Grounded => self.shunt1_y(f),
+            Drive::Floating => self.shunts_in_series(f),
         }
     }
 }
