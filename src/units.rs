@@ -332,7 +332,8 @@ fn fixed_digits(v: f64, decimals: usize, buf: &mut [u8; 48]) -> Option<&str> {
         10_000_000_000_000_000,
         100_000_000_000_000_000,
     ];
-    if decimals >= POW10.len() || !(v.abs() < 9_007_199_254_740_992.0) {
+    // written so that NaN, too, takes the std path
+    if decimals >= POW10.len() || v.is_nan() || v.abs() >= 9_007_199_254_740_992.0 {
         return None;
     }
     // |v| = m·2^e exactly; below 2⁵³ the exponent e is ≤ 0
