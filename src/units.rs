@@ -236,7 +236,12 @@ pub fn eng(value: f64, unit: &str) -> String {
         .copied()
         .find(|(k, _)| a >= *k * 0.9995)
         .unwrap_or((1e-15, "f"));
-    format!("{} {p}{unit}", sig3(value / k))
+    let mut s = String::with_capacity(16 + unit.len());
+    push_sig3(&mut s, value / k);
+    s.push(' ');
+    s.push_str(p);
+    s.push_str(unit);
+    s
 }
 
 /// Three significant digits, trailing zeros trimmed: 9.123 → "9.12", 12.0 → "12".
@@ -247,6 +252,13 @@ pub fn sig3(v: f64) -> String {
     if v == 0.0 {
         return "0".to_string();
     }
+    let mut s = String::with_capacity(24);
+    push_sig3(&mut s, v);
+    s
+}
+
+/// [`sig3`] of a finite, non-zero `v`, appended to `out`.
+fn push_sig3(out: &mut String, v: f64) {
     let a = v.abs();
     let decimals = if a >= 100.0 {
         0
@@ -258,12 +270,123 @@ pub fn sig3(v: f64) -> String {
         (2.0 - a.log10().floor()) as usize
     }
     .min(15);
-    let s = format!("{v:.decimals$}");
-    if s.contains('.') {
-        s.trim_end_matches('0').trim_end_matches('.').to_string()
-    } else {
-        s
+    let start = out.len();
+    push_fixed(out, v, decimals);
+    if out[start..].contains('.') {
+        let keep = out.trim_end_matches('0').trim_end_matches('.').len();
+        out.truncate(keep);
     }
+}
+
+/// `v` with `decimals` digits after the point: the same text as std's `{:.N}` (the
+/// exact value of the double rounded half to even, the sign from the sign bit, so
+/// `-0.01` → `-0.0`), by integer arithmetic on the double's bits. Std's precision
+/// formatting falls back to arbitrary-precision arithmetic for most values and is
+/// the slow path of `core::fmt`; a report prints hundreds of thousands of these.
+pub fn push_fixed(out: &mut String, v: f64, decimals: usize) {
+    let mut buf = [0u8; 48];
+    match fixed_digits(v, decimals, &mut buf) {
+        Some(s) => out.push_str(s),
+        None => {
+            use std::fmt::Write as _;
+            let _ = write!(out, "{v:.decimals$}");
+        }
+    }
+}
+
+/// [`push_fixed`] as a `Display` value, for `write!`: `Fixed(v, 1)` prints as `{v:.1}`.
+#[derive(Debug, Clone, Copy)]
+pub struct Fixed(pub f64, pub usize);
+
+impl fmt::Display for Fixed {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        let mut buf = [0u8; 48];
+        match fixed_digits(self.0, self.1, &mut buf) {
+            Some(s) => f.write_str(s),
+            None => write!(f, "{:.*}", self.1, self.0),
+        }
+    }
+}
+
+/// The text of [`push_fixed`] written into the end of `buf`; None for what the integer
+/// path does not cover (not finite, |v| ≥ 2⁵³, more than 17 decimals, a rounded value
+/// of 2⁶⁴ or more), which the callers leave to std.
+fn fixed_digits(v: f64, decimals: usize, buf: &mut [u8; 48]) -> Option<&str> {
+    const POW10: [u64; 18] = [
+        1,
+        10,
+        100,
+        1_000,
+        10_000,
+        100_000,
+        1_000_000,
+        10_000_000,
+        100_000_000,
+        1_000_000_000,
+        10_000_000_000,
+        100_000_000_000,
+        1_000_000_000_000,
+        10_000_000_000_000,
+        100_000_000_000_000,
+        1_000_000_000_000_000,
+        10_000_000_000_000_000,
+        100_000_000_000_000_000,
+    ];
+    // written so that NaN, too, takes the std path
+    if decimals >= POW10.len() || v.is_nan() || v.abs() >= 9_007_199_254_740_992.0 {
+        return None;
+    }
+    // |v| = m·2^e exactly; below 2⁵³ the exponent e is ≤ 0
+    let bits = v.to_bits();
+    let biased = ((bits >> 52) & 0x7ff) as i32;
+    let frac = bits & ((1u64 << 52) - 1);
+    let (m, e) = if biased == 0 {
+        (frac, -1074)
+    } else {
+        (frac | (1u64 << 52), biased - 1075)
+    };
+    // |v|·10^d = p·2^e exactly (p < 2¹¹⁰); round p/2^-e half to even
+    let p = m as u128 * POW10[decimals] as u128;
+    let shift = (-e) as u32;
+    let q = if shift == 0 {
+        p
+    } else if shift > 120 {
+        0 // p < 2¹¹⁰ is below half of 2^shift
+    } else {
+        let q = p >> shift;
+        let r = p & ((1u128 << shift) - 1);
+        let half = 1u128 << (shift - 1);
+        if r > half || (r == half && q & 1 == 1) {
+            q + 1
+        } else {
+            q
+        }
+    };
+    let mut q = u64::try_from(q).ok()?;
+    // digits from the right: the decimals, the point, the integer part, the sign
+    let mut i = buf.len();
+    for _ in 0..decimals {
+        i -= 1;
+        buf[i] = b'0' + (q % 10) as u8;
+        q /= 10;
+    }
+    if decimals > 0 {
+        i -= 1;
+        buf[i] = b'.';
+    }
+    loop {
+        i -= 1;
+        buf[i] = b'0' + (q % 10) as u8;
+        q /= 10;
+        if q == 0 {
+            break;
+        }
+    }
+    if v.is_sign_negative() {
+        i -= 1;
+        buf[i] = b'-';
+    }
+    std::str::from_utf8(&buf[i..]).ok()
 }
 
 #[cfg(test)]
@@ -292,5 +415,141 @@ mod tests {
         assert_eq!(eng(250e-15, "F"), "250 fF");
         assert_eq!(sig3(12.0), "12");
         assert_eq!(sig3(0.01234), "0.0123");
+    }
+
+    /// Values that stress a fixed-precision formatter: ties, carries, powers of ten,
+    /// extremes and random doubles over the whole range (a deterministic generator).
+    fn hard_values() -> Vec<f64> {
+        let mut v = vec![
+            0.0,
+            -0.0,
+            0.5,
+            1.5,
+            2.5,
+            0.25,
+            0.35,
+            0.125,
+            9.995,
+            9.9995,
+            99.95,
+            0.995,
+            0.0995,
+            999.5,
+            125.25,
+            -125.25,
+            -0.01,
+            -0.05,
+            0.05,
+            1e-300,
+            -1e-300,
+            5e-324,
+            f64::MIN_POSITIVE,
+            4503599627370495.5,
+            9007199254740991.0,
+            9007199254740992.0,
+            1e15,
+            1e16,
+            1e17,
+            1e20,
+            1e300,
+            f64::MAX,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+            f64::NAN,
+        ];
+        for e in -30..=30 {
+            let p = 10f64.powi(e);
+            v.extend([p, -p, p * (1.0 - f64::EPSILON), p * (1.0 + f64::EPSILON)]);
+        }
+        // exact binary ties k/2^j, and decimal "ties" x.xx5 (a hair off in binary)
+        for k in -2000..2000 {
+            v.push(k as f64 / 8.0);
+            v.push(k as f64 / 1024.0);
+            v.push(k as f64 * 0.005);
+            v.push(k as f64 * 0.0005 + 9.0);
+            v.push((k as f64 + 0.5) / 1000.0);
+        }
+        let mut state = 0x9e37_79b9_7f4a_7c15u64;
+        let mut next = || {
+            // splitmix64
+            state = state.wrapping_add(0x9e37_79b9_7f4a_7c15);
+            let mut z = state;
+            z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
+            z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
+            z ^ (z >> 31)
+        };
+        for _ in 0..20_000 {
+            let bits = next();
+            v.push(f64::from_bits(bits)); // anywhere in the range, NaNs included
+            let u = (bits >> 11) as f64 / (1u64 << 53) as f64;
+            let scale = 10f64.powi((next() % 40) as i32 - 20);
+            v.push((u - 0.5) * scale); // moderate magnitudes, both signs
+            v.push((u * 2000.0).round() / 2000.0); // near decimal ties
+        }
+        v
+    }
+
+    #[test]
+    fn fixed_matches_std_format_exactly() {
+        // the reference is std's own `{:.N}`, over every precision the reports use
+        let mut s = String::new();
+        for v in hard_values() {
+            for d in 0..=17 {
+                s.clear();
+                push_fixed(&mut s, v, d);
+                assert_eq!(s, format!("{v:.d$}"), "{v:e} with {d} decimals");
+                assert_eq!(Fixed(v, d).to_string(), s);
+            }
+        }
+    }
+
+    #[test]
+    fn sig3_matches_the_std_formatting_it_replaced() {
+        // the former body of sig3, on std's `{:.N}`
+        fn by_std(v: f64) -> String {
+            if !v.is_finite() {
+                return "n/a".to_string();
+            }
+            if v == 0.0 {
+                return "0".to_string();
+            }
+            let a = v.abs();
+            let decimals = if a >= 100.0 {
+                0
+            } else if a >= 10.0 {
+                1
+            } else if a >= 1.0 {
+                2
+            } else {
+                (2.0 - a.log10().floor()) as usize
+            }
+            .min(15);
+            let s = format!("{v:.decimals$}");
+            if s.contains('.') {
+                s.trim_end_matches('0').trim_end_matches('.').to_string()
+            } else {
+                s
+            }
+        }
+        for v in hard_values() {
+            assert_eq!(sig3(v), by_std(v), "{v:e}");
+            for unit in ["Hz", "H", ""] {
+                let want = if !v.is_finite() {
+                    "n/a".to_string()
+                } else if unit.is_empty() {
+                    by_std(v)
+                } else if v == 0.0 {
+                    format!("0 {unit}")
+                } else {
+                    let (k, p) = SI_PREFIXES
+                        .iter()
+                        .copied()
+                        .find(|(k, _)| v.abs() >= *k * 0.9995)
+                        .unwrap_or((1e-15, "f"));
+                    format!("{} {p}{unit}", by_std(v / k))
+                };
+                assert_eq!(eng(v, unit), want, "{v:e} {unit}");
+            }
+        }
     }
 }

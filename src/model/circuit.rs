@@ -80,14 +80,18 @@ impl PiModel {
     /// Y_in = Y_ser + Y_sh1·Y_sh2/(Y_sh1 + Y_sh2) (the two shunts in series through
     /// ground), the inverse of Z11 − Z12 − Z21 + Z22 of [`PiModel::y2`].
     pub fn y_differential(&self, f: f64) -> C64 {
+        self.series_y(f) + self.shunts_in_series(f)
+    }
+
+    /// The two shunts in series through ground, Y_sh1·Y_sh2/(Y_sh1 + Y_sh2).
+    pub fn shunts_in_series(&self, f: f64) -> C64 {
         let (a, b) = (self.shunt1_y(f), self.shunt2_y(f));
         let s = a + b;
-        let sh = if s.norm_sqr() == 0.0 {
+        if s.norm_sqr() == 0.0 {
             C64::new(0.0, 0.0)
         } else {
             a * b / s
-        };
-        self.series_y(f) + sh
+        }
     }
 
     /// The same coil over an ideal grounded shield: each shunt replaced by C_ox

@@ -47,9 +47,14 @@ impl Drive {
 impl PiModel {
     /// Input admittance of the model under `drive`.
     pub fn y_drive(&self, f: f64, drive: Drive) -> C64 {
+        self.series_y(f) + self.shunt_drive(f, drive)
+    }
+
+    /// The shunt part of [`PiModel::y_drive`]: Y_sh1, or the two shunts in series.
+    pub fn shunt_drive(&self, f: f64, drive: Drive) -> C64 {
         match drive {
-            Drive::Grounded => self.y_one_port(f),
-            Drive::Floating => self.y_differential(f),
+            Drive::Grounded => self.shunt1_y(f),
+            Drive::Floating => self.shunts_in_series(f),
         }
     }
 }
@@ -104,11 +109,11 @@ impl Form for SeriesForm {
     fn n_params(&self) -> usize {
         4
     }
+    #[inline]
     fn eval(&self, x: &[f64], f: f64, g: &mut [C64]) -> C64 {
         let w = TAU * f;
         let s = (f / F_REF).sqrt();
-        let z = C64::new(x[1] + x[2] * s, w * x[0]);
-        let yc = C64::new(1.0, 0.0) / z;
+        let yc = recip(C64::new(x[1] + x[2] * s, w * x[0]));
         let y2 = -yc * yc; // ∂(1/Z)/∂Z
         g[0] = y2 * C64::new(0.0, w);
         g[1] = y2;
@@ -118,25 +123,40 @@ impl Form for SeriesForm {
     }
 }
 
+/// 1/z with one real division (std's complex division takes two).
+#[inline]
+fn recip(z: C64) -> C64 {
+    let inv = 1.0 / z.norm_sqr();
+    C64::new(z.re * inv, -z.im * inv)
+}
+
 /// One shunt branch: C_ox in series with R_si ∥ C_si; x = [cox, csi, rsi].
 pub struct ShuntForm;
 
+/// With u = 1/R_si + jωC_si and v = jωC_ox the branch is Y = uv/(u + v), so
+/// ∂Y/∂C_ox = jω·u²/(u + v)², ∂Y/∂C_si = jω·v²/(u + v)² and ∂Y/∂R_si = −v²/(R_si·(u + v))²:
+/// one complex reciprocal per point (the division is the costly operation here).
+#[inline]
 fn shunt_eval(x: &[f64], f: f64, g: &mut [C64]) -> C64 {
     let w = TAU * f;
-    let a = C64::new(0.0, -1.0 / (w * x[0])); // 1/(jωC_ox)
-    let b = C64::new(1.0, 0.0) / C64::new(1.0 / x[2], w * x[1]); // R_si ∥ C_si
-    let y = C64::new(1.0, 0.0) / (a + b);
-    let y2 = y * y;
-    g[0] = y2 * a / x[0];
-    g[1] = y2 * b * b * C64::new(0.0, w);
-    g[2] = -y2 * b * b / (x[2] * x[2]);
-    y
+    let gsi = 1.0 / x[2];
+    let u = C64::new(gsi, w * x[1]);
+    let v = C64::new(0.0, w * x[0]);
+    let s = recip(u + v);
+    let (p, q) = (u * s, v * s);
+    let (p2, q2) = (p * p, q * q);
+    let jw = C64::new(0.0, w);
+    g[0] = jw * p2;
+    g[1] = jw * q2;
+    g[2] = q2 * (-gsi * gsi);
+    v * p
 }
 
 impl Form for ShuntForm {
     fn n_params(&self) -> usize {
         3
     }
+    #[inline]
     fn eval(&self, x: &[f64], f: f64, g: &mut [C64]) -> C64 {
         shunt_eval(x, f, g)
     }
@@ -160,21 +180,25 @@ impl Form for OnePortForm {
 }
 
 /// Weighted linear least squares with scaled columns: minimise Σ w_i (a·u_i + b·v_i − t_i)²
-/// for the two unknowns (a, b). None when singular.
-fn lsq2(u: &[f64], v: &[f64], t: &[f64], w: &[f64]) -> Option<(f64, f64)> {
-    let su = u.iter().map(|x| x * x).sum::<f64>().sqrt();
-    let sv = v.iter().map(|x| x * x).sum::<f64>().sqrt();
+/// for the two unknowns (a, b), the equations (u_i, v_i, t_i, w_i) given by `rows` (called
+/// twice: once for the column scales, once for the sums; no buffer). None when singular.
+fn lsq2<I>(rows: impl Fn() -> I) -> Option<(f64, f64)>
+where
+    I: Iterator<Item = (f64, f64, f64, f64)>,
+{
+    let (su, sv) = rows().fold((0.0, 0.0), |(a, b), (u, v, _, _)| (a + u * u, b + v * v));
+    let (su, sv) = (su.sqrt(), sv.sqrt());
     if !(su > 0.0 && sv > 0.0) {
         return None;
     }
     let (mut a11, mut a12, mut a22, mut b1, mut b2) = (0.0, 0.0, 0.0, 0.0, 0.0);
-    for i in 0..u.len() {
-        let (x, y) = (u[i] / su, v[i] / sv);
-        a11 += w[i] * x * x;
-        a12 += w[i] * x * y;
-        a22 += w[i] * y * y;
-        b1 += w[i] * x * t[i];
-        b2 += w[i] * y * t[i];
+    for (u, v, t, w) in rows() {
+        let (x, y) = (u / su, v / sv);
+        a11 += w * x * x;
+        a12 += w * x * y;
+        a22 += w * y * y;
+        b1 += w * x * t;
+        b2 += w * y * t;
     }
     let det = a11 * a22 - a12 * a12;
     if det.is_nan() || det.abs() <= 1e-14 * a11 * a22 {
@@ -203,30 +227,26 @@ pub fn series_start(f: &[f64], ys: &[C64]) -> Result<[f64; 4], String> {
             f[0]
         ));
     }
-    let s: Vec<f64> = f.iter().map(|&x| (x / F_REF).sqrt()).collect();
+    let s = |i: usize| (f[i] / F_REF).sqrt();
     let top = (n * 3 / 4).min(n - 1);
     let mut cs = 0.0;
     let (mut ls, mut rdc, mut rac) = (z0.im / (TAU * f[0]), z0.re, 0.0);
     for _ in 0..3 {
-        let zc: Vec<C64> = (0..n)
-            .map(|i| C64::new(1.0, 0.0) / (ys[i] - C64::new(0.0, TAU * f[i] * cs)))
-            .collect();
+        // the coil's impedance once C_s is taken out
+        let zc = |i: usize| recip(ys[i] - C64::new(0.0, TAU * f[i] * cs));
         let low = (n / 2).max(1);
-        ls = mean((0..low).map(|i| zc[i].im / (TAU * f[i]))).unwrap_or(ls);
-        let one = vec![1.0; n];
-        let re: Vec<f64> = zc.iter().map(|z| z.re).collect();
-        let w = vec![1.0; n];
-        match lsq2(&one, &s, &re, &w) {
+        ls = mean((0..low).map(|i| zc(i).im / (TAU * f[i]))).unwrap_or(ls);
+        match lsq2(|| (0..n).map(|i| (1.0, s(i), zc(i).re, 1.0))) {
             Some((a, b)) if a > 0.0 => {
                 rdc = a;
                 rac = b.max(0.0);
             }
             _ => {
-                rdc = zc[0].re;
+                rdc = zc(0).re;
                 rac = 0.0;
             }
         }
-        let coil = |i: usize| C64::new(1.0, 0.0) / C64::new(rdc + rac * s[i], TAU * f[i] * ls);
+        let coil = |i: usize| recip(C64::new(rdc + rac * s(i), TAU * f[i] * ls));
         cs = mean((top..n).map(|i| (ys[i] - coil(i)).im / (TAU * f[i])))
             .unwrap_or(0.0)
             .max(0.0);
@@ -247,35 +267,43 @@ pub fn series_start(f: &[f64], ys: &[C64]) -> Result<[f64; 4], String> {
 /// Falls back to the low-frequency capacitance and a worst-case R_si.
 pub fn shunt_start(f: &[f64], ysh: &[C64]) -> [f64; 3] {
     let n = f.len();
-    let w: Vec<f64> = f.iter().map(|&x| TAU * x).collect();
-    let z: Vec<C64> = ysh.iter().map(|&y| C64::new(1.0, 0.0) / y).collect();
-    let c_lo = (ysh[0].im / w[0]).abs().max(1e-21);
-    let c_hi = (ysh[n - 1].im / w[n - 1]).abs().max(1e-22);
-    let one = vec![1.0; n];
-    let t1: Vec<f64> = (0..n).map(|i| -w[i] * z[i].im).collect();
-    let u1: Vec<f64> = (0..n).map(|i| w[i] * w[i] * z[i].re).collect();
-    let wt: Vec<f64> = t1.iter().map(|t| 1.0 / (t * t).max(1e-300)).collect();
-    let (mut cox, tau) = match lsq2(&one, &u1, &t1, &wt) {
+    let w = |i: usize| TAU * f[i];
+    let z = |i: usize| recip(ysh[i]);
+    let c_lo = (ysh[0].im / w(0)).abs().max(1e-21);
+    let c_hi = (ysh[n - 1].im / w(n - 1)).abs().max(1e-22);
+    let first = || {
+        (0..n).map(|i| {
+            let (wi, zi) = (w(i), z(i));
+            let t = -wi * zi.im;
+            (1.0, wi * wi * zi.re, t, 1.0 / (t * t).max(1e-300))
+        })
+    };
+    let (mut cox, tau) = match lsq2(first) {
         Some((a, b)) if a > 0.0 => (1.0 / a, b),
         _ => (c_lo, 0.0),
     };
     if !(cox.is_finite() && cox > 0.0) {
         cox = c_lo;
     }
-    let ok: Vec<usize> = (0..n).filter(|&i| z[i].re > 0.0).collect();
+    // the second line over the points with Re Z_sh > 0 only
+    let second = || {
+        (0..n).filter_map(|i| {
+            let zi = z(i);
+            (zi.re > 0.0).then(|| {
+                let t = 1.0 / zi.re;
+                (1.0, w(i) * w(i), t, 1.0 / (t * t))
+            })
+        })
+    };
     let mut rsi = 0.0;
-    if ok.len() >= 2 {
-        let o: Vec<f64> = ok.iter().map(|_| 1.0).collect();
-        let v: Vec<f64> = ok.iter().map(|&i| w[i] * w[i]).collect();
-        let t: Vec<f64> = ok.iter().map(|&i| 1.0 / z[i].re).collect();
-        let wt: Vec<f64> = t.iter().map(|t| 1.0 / (t * t)).collect();
-        if let Some((a, _)) = lsq2(&o, &v, &t, &wt) {
+    if second().nth(1).is_some() {
+        if let Some((a, _)) = lsq2(second) {
             if a > 0.0 {
                 rsi = 1.0 / a;
             }
         }
     }
-    let wm = (w[0] * w[n - 1]).sqrt();
+    let wm = (w(0) * w(n - 1)).sqrt();
     let csi_series = if c_hi < cox {
         cox * c_hi / (cox - c_hi)
     } else {
@@ -295,9 +323,10 @@ fn rms_rel(mut model: impl FnMut(f64) -> C64, f: &[f64], data: &[C64]) -> f64 {
     let mut s = 0.0;
     let mut k = 0usize;
     for (i, &fi) in f.iter().enumerate() {
-        let d = data[i].norm();
-        if d > 0.0 {
-            s += ((model(fi) - data[i]) / d).norm_sqr();
+        // |e/d|² as |e|²/|d|²: no square root or complex division per point
+        let d2 = data[i].norm_sqr();
+        if d2 > 0.0 {
+            s += (model(fi) - data[i]).norm_sqr() / d2;
             k += 1;
         }
     }
@@ -400,15 +429,16 @@ pub fn fit_view(
         }
         _ => None,
     };
-    let err_of = |m: &PiModel| rms_rel(|fi| m.y_drive(fi, drive), &f, &yin);
-    let model = match branches {
+    // each candidate with its error, computed once
+    let with_error = |m: PiModel| (m, rms_rel(|fi| m.y_drive(fi, drive), &f, &yin));
+    let (model, fit_error) = match branches.map(|r| r.map(with_error)) {
         // the branches describe the drive: done
-        Some(Ok(m)) if err_of(&m) <= 0.05 => m,
+        Some(Ok((m, e))) if e <= 0.05 => (m, e),
         // a 2-port whose branches are not a coil's (e.g. one end of a centre-tapped
         // coil with the tap grounded): the whole one-port under this drive instead
-        Some(first) => match (first, fit_one_port(solver, &f, &yin, drive)) {
+        Some(first) => match (first, fit_one_port(solver, &f, &yin, drive).map(with_error)) {
             (Ok(a), Ok(b)) => {
-                if err_of(&b) < err_of(&a) {
+                if b.1 < a.1 {
                     b
                 } else {
                     a
@@ -418,9 +448,8 @@ pub fn fit_view(
             (Err(_), Ok(b)) => b,
             (Err(e), Err(_)) => return Err(e),
         },
-        None => fit_one_port(solver, &f, &yin, drive)?,
+        None => with_error(fit_one_port(solver, &f, &yin, drive)?),
     };
-    let fit_error = rms_rel(|fi| model.y_drive(fi, drive), &f, &yin);
     if !fit_error.is_finite() {
         // never print NaN or inf into a report
         return Err(format!(
@@ -675,7 +704,7 @@ fn fit_one_port(
     let zin: Vec<C64> = yin[..low].iter().map(|&y| C64::new(1.0, 0.0) / y).collect();
     let ls0 = z0.im / (TAU * f[0]);
     let re: Vec<f64> = zin.iter().map(|z| z.re).collect();
-    let (rdc0, rac0) = match lsq2(&vec![1.0; low], &s[..low], &re, &vec![1.0; low]) {
+    let (rdc0, rac0) = match lsq2(|| (0..low).map(|i| (1.0, s[i], re[i], 1.0))) {
         Some((a, b)) if a > 0.0 => (a, b.max(1e-3 * a)),
         _ => (z0.re.max(1e-3 * z0.im), 1e-3 * z0.re.max(1e-3 * z0.im)),
     };
@@ -768,7 +797,7 @@ mod tests {
         let u = [1.0, 1.0, 1.0, 1.0];
         let v = [1e20, 2e20, 3e20, 5e20];
         let t: Vec<f64> = v.iter().map(|x| 2.0 + 3e-20 * x).collect();
-        let (a, b) = lsq2(&u, &v, &t, &[1.0; 4]).expect("solvable");
+        let (a, b) = lsq2(|| (0..4).map(|i| (u[i], v[i], t[i], 1.0))).expect("solvable");
         assert!((a - 2.0).abs() < 1e-12 && (b - 3e-20).abs() < 1e-30);
     }
 }

@@ -37,13 +37,18 @@ pub struct Factors {
 /// The substrate factor is evaluated as 1/(1 + Re Y_p·(R_s² + ω²L_s²)/R_s), the same
 /// value, which stays finite when Re Y_p = 0. None at f ≤ 0 or where undefined.
 pub fn factors(model: &PiModel, f: f64, y_in: C64) -> Option<Factors> {
+    factors_with_coil(model, f, y_in, model.coil_y(f))
+}
+
+/// [`factors`] with the coil's admittance `coil` = [`PiModel::coil_y`] at `f` given.
+fn factors_with_coil(model: &PiModel, f: f64, y_in: C64, coil: C64) -> Option<Factors> {
     let w = TAU * f;
     let rs = model.rs(f);
     let ls = model.ls;
     if !(w > 0.0 && rs > 0.0 && ls > 0.0) {
         return None;
     }
-    let yp = y_in - model.coil_y(f);
+    let yp = y_in - coil;
     let d = rs * rs + w * w * ls * ls;
     let c = yp.im / w;
     let q_conductor = fin(w * ls / rs)?;
@@ -70,11 +75,23 @@ pub fn q_of(y: C64) -> Option<f64> {
 /// C_ox alone, over Q of the model as fitted, both under the view's drive. None
 /// where the fitted model's Q is not positive (at and above its self-resonance).
 pub fn shield_gain(model: &PiModel, f: f64, drive: Drive) -> Option<f64> {
-    let q0 = q_of(model.y_drive(f, drive))?;
+    shield_gain_with(model, &model.shielded(), f, drive, model.series_y(f))
+}
+
+/// [`shield_gain`] with the shielded model and the series branch (the same in both)
+/// at `f` given.
+fn shield_gain_with(
+    model: &PiModel,
+    shielded: &PiModel,
+    f: f64,
+    drive: Drive,
+    series: C64,
+) -> Option<f64> {
+    let q0 = q_of(series + model.shunt_drive(f, drive))?;
     if q0 <= 0.0 {
         return None;
     }
-    let q1 = q_of(model.shielded().y_drive(f, drive))?;
+    let q1 = q_of(series + shielded.shunt_drive(f, drive))?;
     fin(q1 / q0)
 }
 
@@ -119,15 +136,27 @@ pub struct Curves {
 
 /// All loss curves on the sweep.
 pub fn curves(model: &PiModel, freq: &[f64], y_in: &[C64], drive: Drive) -> Curves {
-    let mut c = Curves::default();
+    let n = freq.len().min(y_in.len());
+    let mut c = Curves {
+        q_conductor: Vec::with_capacity(n),
+        substrate_factor: Vec::with_capacity(n),
+        resonance_factor: Vec::with_capacity(n),
+        shield_gain: Vec::with_capacity(n),
+        mechanism: Vec::with_capacity(n),
+    };
+    let shielded = model.shielded();
     for (&f, &y) in freq.iter().zip(y_in) {
-        let fa = factors(model, f, y);
+        // the coil once per point, for the factors and both Q of the shield gain
+        let coil = model.coil_y(f);
+        let fa = factors_with_coil(model, f, y, coil);
         c.q_conductor.push(fa.map(|x| x.q_conductor));
         c.substrate_factor.push(fa.map(|x| x.substrate_factor));
         c.resonance_factor.push(fa.map(|x| x.resonance_factor));
         c.mechanism
             .push(fa.map(|x| mechanism_of(x.substrate_factor, x.resonance_factor)));
-        c.shield_gain.push(shield_gain(model, f, drive));
+        let series = coil + C64::new(0.0, TAU * f * model.cs); // = model.series_y(f)
+        c.shield_gain
+            .push(shield_gain_with(model, &shielded, f, drive, series));
     }
     c
 }

@@ -14,7 +14,7 @@ use std::fmt::Write as _;
 
 use crate::figures::{Kind, ViewFigures};
 use crate::model::LossBand;
-use crate::units::{eng, sig3};
+use crate::units::{eng, push_fixed, sig3, Fixed};
 use crate::verdict::PlotData;
 
 /// Points kept per part by [`plot_data`] (before the per-chart line simplification):
@@ -324,45 +324,62 @@ pub fn axis_scale(max_abs: f64, unit: &str) -> (f64, String) {
 /// Simplify a polyline (screen coordinates) with the Ramer–Douglas–Peucker algorithm:
 /// drop points closer than `eps` to the chord of their neighbours. Ends are kept.
 pub fn simplify(points: &[(f64, f64)], eps: f64) -> Vec<(f64, f64)> {
-    let n = points.len();
-    if n <= 2 {
-        return points.to_vec();
-    }
-    let mut keep = vec![false; n];
-    keep[0] = true;
-    keep[n - 1] = true;
-    let mut stack = vec![(0usize, n - 1)];
-    while let Some((a, b)) = stack.pop() {
-        if b <= a + 1 {
-            continue;
-        }
-        let (x0, y0) = points[a];
-        let (x1, y1) = points[b];
-        let (dx, dy) = (x1 - x0, y1 - y0);
-        let len = (dx * dx + dy * dy).sqrt();
-        let mut far = (a, 0.0);
-        for (i, &(x, y)) in points.iter().enumerate().take(b).skip(a + 1) {
-            let d = if len > 0.0 {
-                ((x - x0) * dy - (y - y0) * dx).abs() / len
-            } else {
-                ((x - x0).powi(2) + (y - y0).powi(2)).sqrt()
-            };
-            if d > far.1 {
-                far = (i, d);
-            }
-        }
-        if far.1 > eps {
-            keep[far.0] = true;
-            stack.push((a, far.0));
-            stack.push((far.0, b));
-        }
-    }
+    let keep = Rdp::default().keep(points, eps).to_vec();
     points
         .iter()
         .zip(keep)
         .filter(|(_, k)| *k)
         .map(|(p, _)| *p)
         .collect()
+}
+
+/// The work buffers of [`simplify`], kept to serve many polylines.
+#[derive(Default)]
+struct Rdp {
+    keep: Vec<bool>,
+    stack: Vec<(usize, usize)>,
+}
+
+impl Rdp {
+    /// Which points of `points` [`simplify`] keeps.
+    fn keep(&mut self, points: &[(f64, f64)], eps: f64) -> &[bool] {
+        let n = points.len();
+        self.keep.clear();
+        self.keep.resize(n, n <= 2);
+        if n <= 2 {
+            return &self.keep;
+        }
+        self.keep[0] = true;
+        self.keep[n - 1] = true;
+        self.stack.clear();
+        self.stack.push((0usize, n - 1));
+        while let Some((a, b)) = self.stack.pop() {
+            if b <= a + 1 {
+                continue;
+            }
+            let (x0, y0) = points[a];
+            let (x1, y1) = points[b];
+            let (dx, dy) = (x1 - x0, y1 - y0);
+            let len = (dx * dx + dy * dy).sqrt();
+            let mut far = (a, 0.0);
+            for (i, &(x, y)) in points.iter().enumerate().take(b).skip(a + 1) {
+                let d = if len > 0.0 {
+                    ((x - x0) * dy - (y - y0) * dx).abs() / len
+                } else {
+                    ((x - x0).powi(2) + (y - y0).powi(2)).sqrt()
+                };
+                if d > far.1 {
+                    far = (i, d);
+                }
+            }
+            if far.1 > eps {
+                self.keep[far.0] = true;
+                self.stack.push((a, far.0));
+                self.stack.push((far.0, b));
+            }
+        }
+        &self.keep
+    }
 }
 
 // ---------------------------------------------------------------------------
@@ -420,11 +437,24 @@ const RIGHT: f64 = 14.0;
 const TOP: f64 = 30.0;
 const STRIP_H: f64 = 14.0;
 
-fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
+/// Text escaped for an attribute or element, written straight into the output.
+struct Esc<'a>(&'a str);
+
+impl std::fmt::Display for Esc<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        let mut rest = self.0;
+        while let Some(i) = rest.find(['&', '<', '>', '"']) {
+            f.write_str(&rest[..i])?;
+            f.write_str(match rest.as_bytes()[i] {
+                b'&' => "&amp;",
+                b'<' => "&lt;",
+                b'>' => "&gt;",
+                _ => "&quot;",
+            })?;
+            rest = &rest[i + 1..];
+        }
+        f.write_str(rest)
+    }
 }
 
 /// A value range for values that may shoot off near a resonance: the extremes of the
@@ -465,21 +495,9 @@ pub fn auto_range(
     Some((if lo == 0.0 { 0.0 } else { lo - pad }, hi + pad))
 }
 
-/// A screen coordinate printed with one decimal, by integer arithmetic: the same text
-/// as `{:.1}` but for ties (rounded away from zero here), at a fraction of the cost (float formatting with a precision is the slow path of
-/// `core::fmt`, and a page of 2,000 parts prints a million coordinates).
-struct Px(f64);
-
-impl std::fmt::Display for Px {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        let t = (self.0 * 10.0).round();
-        if !t.is_finite() || t.abs() >= 1e15 {
-            return write!(f, "{:.1}", self.0);
-        }
-        let sign = if self.0 < 0.0 { "-" } else { "" };
-        let t = t.abs() as u64;
-        write!(f, "{sign}{}.{}", t / 10, t % 10)
-    }
+/// A screen coordinate with one decimal: the text of `{:.1}` (see [`Fixed`]).
+fn px(v: f64) -> Fixed {
+    Fixed(v, 1)
 }
 
 /// Render a chart as an `<svg>` element (no XML prolog; meant to sit inline in HTML).
@@ -498,10 +516,10 @@ pub fn svg_chart(c: &Chart) -> String {
     let _ = write!(
         o,
         "<svg xmlns=\"http://www.w3.org/2000/svg\" id=\"{}\" class=\"chart\" viewBox=\"0 0 {W} {height}\" role=\"img\" aria-label=\"{}\">",
-        esc(&c.id),
-        esc(&c.title)
+        Esc(&c.id),
+        Esc(&c.title)
     );
-    let _ = write!(o, "<title>{}</title>", esc(&c.title));
+    let _ = write!(o, "<title>{}</title>", Esc(&c.title));
     if n < 2 || c.freq[0] <= 0.0 || c.freq[n - 1] <= c.freq[0] {
         let _ = write!(
             o,
@@ -533,7 +551,7 @@ pub fn svg_chart(c: &Chart) -> String {
     let _ = write!(
         o,
         "<text class=\"ctitle\" x=\"{x0}\" y=\"18\">{}</text>",
-        esc(&c.title)
+        Esc(&c.title)
     );
     let mut lx = x1;
     for l in c.lines.iter().rev() {
@@ -541,12 +559,12 @@ pub fn svg_chart(c: &Chart) -> String {
         lx -= w;
         let _ = write!(
             o,
-            "<g class=\"legend {}\"><line x1=\"{:.1}\" y1=\"14\" x2=\"{:.1}\" y2=\"14\"/><text x=\"{:.1}\" y=\"18\">{}</text></g>",
-            esc(&l.class),
-            lx,
-            lx + 18.0,
-            lx + 22.0,
-            esc(&l.label)
+            "<g class=\"legend {}\"><line x1=\"{}\" y1=\"14\" x2=\"{}\" y2=\"14\"/><text x=\"{}\" y=\"18\">{}</text></g>",
+            Esc(&l.class),
+            px(lx),
+            px(lx + 18.0),
+            px(lx + 22.0),
+            Esc(&l.label)
         );
     }
 
@@ -557,8 +575,9 @@ pub fn svg_chart(c: &Chart) -> String {
         if b > a {
             let _ = write!(
                 o,
-                "<rect class=\"band\" x=\"{a:.1}\" y=\"{TOP}\" width=\"{:.1}\" height=\"{PLOT_H}\"><title>band {} – {}</title></rect>",
-                b - a,
+                "<rect class=\"band\" x=\"{}\" y=\"{TOP}\" width=\"{}\" height=\"{PLOT_H}\"><title>band {} – {}</title></rect>",
+                px(a),
+                px(b - a),
                 eng(b0, "Hz"),
                 eng(b1, "Hz")
             );
@@ -567,29 +586,38 @@ pub fn svg_chart(c: &Chart) -> String {
 
     // grid and ticks
     let ticks = log_ticks(fl, fh);
+    // the constant parts of the grid lines, formatted once
+    let vline = format!(" {TOP}V{plot_bottom}");
+    let (hline_start, hline_end) = (format!("M{x0} "), format!("H{x1}"));
     let mut minor = String::new();
     for f in &ticks.minor {
-        let _ = write!(minor, "M{} {TOP}V{plot_bottom}", Px(xf(*f)));
+        minor.push('M');
+        push_fixed(&mut minor, xf(*f), 1);
+        minor.push_str(&vline);
     }
     if !minor.is_empty() {
         let _ = write!(o, "<path class=\"grid-minor\" d=\"{minor}\"/>");
     }
     let mut major = String::new();
     for f in &ticks.major {
-        let _ = write!(major, "M{} {TOP}V{plot_bottom}", Px(xf(*f)));
+        major.push('M');
+        push_fixed(&mut major, xf(*f), 1);
+        major.push_str(&vline);
     }
     for v in &yt {
-        let _ = write!(major, "M{x0} {}H{x1}", Px(yv(*v)));
+        major.push_str(&hline_start);
+        push_fixed(&mut major, yv(*v), 1);
+        major.push_str(&hline_end);
     }
     let _ = write!(o, "<path class=\"grid\" d=\"{major}\"/>");
     let _ = write!(o, "<g class=\"xlabels\">");
     for f in &ticks.major {
         let _ = write!(
             o,
-            "<text x=\"{:.1}\" y=\"{:.1}\">{}</text>",
-            xf(*f),
-            axis_y + 16.0,
-            esc(&freq_label(*f))
+            "<text x=\"{}\" y=\"{}\">{}</text>",
+            px(xf(*f)),
+            px(axis_y + 16.0),
+            Esc(&freq_label(*f))
         );
     }
     let _ = write!(o, "</g>");
@@ -599,9 +627,9 @@ pub fn svg_chart(c: &Chart) -> String {
     for v in &yt {
         let _ = write!(
             o,
-            "<text x=\"{:.1}\" y=\"{:.1}\">{}</text>",
-            x0 - 5.0,
-            yv(*v) + 4.0,
+            "<text x=\"{}\" y=\"{}\">{}</text>",
+            px(x0 - 5.0),
+            px(yv(*v) + 4.0),
             sig3(*v / k)
         );
     }
@@ -609,9 +637,9 @@ pub fn svg_chart(c: &Chart) -> String {
     if !unit.is_empty() {
         let _ = write!(
             o,
-            "<text class=\"yunit\" x=\"8\" y=\"{:.1}\">{}</text>",
-            TOP - 6.0,
-            esc(&unit)
+            "<text class=\"yunit\" x=\"8\" y=\"{}\">{}</text>",
+            px(TOP - 6.0),
+            Esc(&unit)
         );
     }
 
@@ -619,33 +647,50 @@ pub fn svg_chart(c: &Chart) -> String {
     let clip = format!("{}-clip", c.id);
     let _ = write!(
         o,
-        "<clipPath id=\"{}\"><rect x=\"{x0}\" y=\"{TOP}\" width=\"{:.1}\" height=\"{PLOT_H}\"/></clipPath><g clip-path=\"url(#{})\">",
-        esc(&clip),
-        x1 - x0,
-        esc(&clip)
+        "<clipPath id=\"{}\"><rect x=\"{x0}\" y=\"{TOP}\" width=\"{}\" height=\"{PLOT_H}\"/></clipPath><g clip-path=\"url(#{})\">",
+        Esc(&clip),
+        px(x1 - x0),
+        Esc(&clip)
     );
     if yl < 0.0 && yh > 0.0 {
-        let _ = write!(o, "<path class=\"zero\" d=\"M{x0} {:.1}H{x1}\"/>", yv(0.0));
+        let _ = write!(o, "<path class=\"zero\" d=\"M{x0} {}H{x1}\"/>", px(yv(0.0)));
     }
+    // each curve's path goes straight into `o` (taken back when it has no point);
+    // the buffers serve every curve
+    let xs: Vec<f64> = c.freq.iter().map(|&f| xf(f)).collect();
+    let mut seg: Vec<(f64, f64)> = Vec::with_capacity(n);
+    let mut rdp = Rdp::default();
     for l in &c.lines {
-        let mut d = String::new();
-        let mut seg: Vec<(f64, f64)> = Vec::new();
-        let flush = |seg: &mut Vec<(f64, f64)>, d: &mut String| {
-            let s = simplify(seg, 0.3);
-            for (j, (x, y)) in s.iter().enumerate() {
-                let _ = write!(d, "{}{} {}", if j == 0 { "M" } else { " " }, Px(*x), Px(*y));
+        let mark = o.len();
+        let _ = write!(o, "<path class=\"curve {}\" d=\"", Esc(&l.class));
+        let path = o.len();
+        let mut flush = |seg: &mut Vec<(f64, f64)>, o: &mut String| {
+            let keep = rdp.keep(seg, 0.3);
+            for (j, &(x, y)) in seg
+                .iter()
+                .zip(keep)
+                .filter(|(_, k)| **k)
+                .map(|(p, _)| p)
+                .enumerate()
+            {
+                o.push_str(if j == 0 { "M" } else { " " });
+                push_fixed(o, x, 1);
+                o.push(' ');
+                push_fixed(o, y, 1);
             }
             seg.clear();
         };
-        for (f, v) in c.freq.iter().zip(l.values.iter()) {
+        for (&x, v) in xs.iter().zip(l.values.iter()) {
             match v {
-                Some(v) if v.is_finite() => seg.push((xf(*f), yv(*v))),
-                _ => flush(&mut seg, &mut d),
+                Some(v) if v.is_finite() => seg.push((x, yv(*v))),
+                _ => flush(&mut seg, &mut o),
             }
         }
-        flush(&mut seg, &mut d);
-        if !d.is_empty() {
-            let _ = write!(o, "<path class=\"curve {}\" d=\"{d}\"/>", esc(&l.class));
+        flush(&mut seg, &mut o);
+        if o.len() == path {
+            o.truncate(mark);
+        } else {
+            o.push_str("\"/>");
         }
     }
     let _ = write!(o, "</g>");
@@ -672,9 +717,12 @@ pub fn svg_chart(c: &Chart) -> String {
         let tx = if anchor == "end" { x - 3.0 } else { x + 3.0 };
         let _ = write!(
             o,
-            "<g class=\"mark {}\"><path d=\"M{x:.1} {TOP}V{plot_bottom}\"/><text x=\"{tx:.1}\" y=\"{ty:.1}\" text-anchor=\"{anchor}\">{}</text></g>",
-            esc(&m.class),
-            esc(&m.label)
+            "<g class=\"mark {}\"><path d=\"M{}{vline}\"/><text x=\"{}\" y=\"{}\" text-anchor=\"{anchor}\">{}</text></g>",
+            Esc(&m.class),
+            px(x),
+            px(tx),
+            px(ty),
+            Esc(&m.label)
         );
     }
 
@@ -688,8 +736,11 @@ pub fn svg_chart(c: &Chart) -> String {
             let w = (e - a).max(1.0);
             let _ = write!(
                 o,
-                "<rect class=\"m-{}\" x=\"{a:.1}\" y=\"{sy:.1}\" width=\"{w:.1}\" height=\"{STRIP_H}\"><title>{}: {} – {}</title></rect>",
+                "<rect class=\"m-{}\" x=\"{}\" y=\"{}\" width=\"{}\" height=\"{STRIP_H}\"><title>{}: {} – {}</title></rect>",
                 b.mechanism.as_str(),
+                px(a),
+                px(sy),
+                px(w),
                 b.mechanism.as_str(),
                 eng(b.from, "Hz"),
                 eng(b.to, "Hz")
@@ -699,8 +750,9 @@ pub fn svg_chart(c: &Chart) -> String {
         let mut lx = x0;
         let _ = write!(
             o,
-            "<text class=\"slabel\" x=\"{lx:.1}\" y=\"{:.1}\">Q limited by:</text>",
-            legend_y
+            "<text class=\"slabel\" x=\"{}\" y=\"{}\">Q limited by:</text>",
+            px(lx),
+            px(legend_y)
         );
         lx += 96.0;
         for (m, word) in [
@@ -710,18 +762,19 @@ pub fn svg_chart(c: &Chart) -> String {
         ] {
             let _ = write!(
                 o,
-                "<rect class=\"m-{m}\" x=\"{lx:.1}\" y=\"{:.1}\" width=\"12\" height=\"10\"/><text class=\"slabel\" x=\"{:.1}\" y=\"{:.1}\">{word}</text>",
-                legend_y - 9.0,
-                lx + 16.0,
-                legend_y
+                "<rect class=\"m-{m}\" x=\"{}\" y=\"{}\" width=\"12\" height=\"10\"/><text class=\"slabel\" x=\"{}\" y=\"{}\">{word}</text>",
+                px(lx),
+                px(legend_y - 9.0),
+                px(lx + 16.0),
+                px(legend_y)
             );
             lx += 124.0;
         }
     }
     let _ = write!(
         o,
-        "<rect class=\"frame\" x=\"{x0}\" y=\"{TOP}\" width=\"{:.1}\" height=\"{PLOT_H}\"/>",
-        x1 - x0
+        "<rect class=\"frame\" x=\"{x0}\" y=\"{TOP}\" width=\"{}\" height=\"{PLOT_H}\"/>",
+        px(x1 - x0)
     );
     o.push_str("</svg>");
     o
@@ -733,16 +786,14 @@ mod tests {
 
     #[test]
     fn coordinates_print_as_one_decimal_like_std() {
-        // std's `{:.1}` is the straightforward form; ties aside they agree
+        // the same text as std's `{:.1}`, ties included (units::tests covers the rest)
         for i in -20_000..20_000 {
-            let v = i as f64 * 0.0137 + 0.003;
-            if ((v * 10.0).abs().fract() - 0.5).abs() < 1e-6 {
-                continue; // a tie (or within rounding of one) may go either way
+            for v in [i as f64 * 0.0137 + 0.003, i as f64 * 0.05, i as f64 / 64.0] {
+                assert_eq!(px(v).to_string(), format!("{v:.1}"), "{v}");
             }
-            assert_eq!(Px(v).to_string(), format!("{v:.1}"), "{v}");
         }
-        assert_eq!(Px(1e300).to_string(), format!("{:.1}", 1e300));
-        assert_eq!(Px(-3.96).to_string(), "-4.0");
+        assert_eq!(px(1e300).to_string(), format!("{:.1}", 1e300));
+        assert_eq!(px(-3.96).to_string(), "-4.0");
     }
 
     #[test]
