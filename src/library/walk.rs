@@ -1,8 +1,11 @@
 //! Walking a library tree: which files are parts, what they are called, and what
 //! becomes of the entries that cannot be parts (loops, unreadable folders, FIFOs).
 
+use std::collections::HashSet;
 use std::ffi::OsStr;
 use std::path::{Component, Path, PathBuf};
+
+use super::SIDECAR_SUFFIX;
 
 /// Name of the cache folder inside a library; never walked.
 pub const CACHE_DIR: &str = ".lcgate-cache";
@@ -34,6 +37,44 @@ pub struct Walk {
     /// entries skipped with a reason worth telling the user (not-followed links,
     /// FIFOs and devices with a Touchstone name), sorted
     pub notes: Vec<String>,
+    /// every `*.part.yaml` that is (or leads to) a regular file in the folders the walk
+    /// listed, as walked; None when no folder was listed (a single file as the root)
+    sidecars: Option<HashSet<PathBuf>>,
+}
+
+impl Walk {
+    /// The sidecar of `part`, the same answer as [`super::sidecar_path`] gives, taken
+    /// from the folder listings the walk already read instead of two `stat` calls per
+    /// part (the run memo asks this of every part on every run). A part the walk
+    /// could not reach (its `error` is set) and a single-file library are asked of the
+    /// file system.
+    pub fn sidecar_of(&self, part: &PartFile) -> Option<PathBuf> {
+        let listed = match &self.sidecars {
+            Some(set) if part.error.is_none() => set,
+            _ => return super::sidecar_path(&part.path),
+        };
+        if listed.is_empty() {
+            // the part's folder was listed, and no folder held a sidecar
+            return None;
+        }
+        // the candidates of `sidecar_path`, built the same way (for a name that is not
+        // UTF-8 it looks for the lossy name: ask the file system that same question)
+        let Some(name) = part.path.file_name().and_then(OsStr::to_str) else {
+            return super::sidecar_path(&part.path);
+        };
+        let mut file = String::with_capacity(name.len() + SIDECAR_SUFFIX.len());
+        file.push_str(name);
+        file.push_str(SIDECAR_SUFFIX);
+        let mut candidate = part.path.with_file_name(&file);
+        if listed.contains(&candidate) {
+            return Some(candidate);
+        }
+        let dot = name.rfind('.').filter(|&d| d > 0)?;
+        file.truncate(dot);
+        file.push_str(SIDECAR_SUFFIX);
+        candidate.set_file_name(&file);
+        listed.contains(&candidate).then_some(candidate)
+    }
 }
 
 /// The walk could not start.
@@ -56,22 +97,28 @@ pub enum WalkError {
 /// True for a Touchstone file name: `*.sNp` for any port count N ≥ 1, or `*.ts`,
 /// extension compared without regard to case (`.S2P` is common on some systems).
 pub fn is_touchstone_name(name: &OsStr) -> bool {
-    let name = name.to_string_lossy();
-    let Some(dot) = name.rfind('.') else {
+    // on the bytes, without a lossy copy: the extension must be ASCII to match, and a
+    // `.` byte is a `.` in the lossy name too
+    let name = name.as_encoded_bytes();
+    let Some(dot) = name.iter().rposition(|&b| b == b'.') else {
         return false;
     };
     if dot == 0 {
         // `.s2p` alone is a hidden file with no stem, not a part
         return false;
     }
-    let ext = name[dot + 1..].to_ascii_lowercase();
-    if ext == "ts" {
+    let ext = &name[dot + 1..];
+    if ext.eq_ignore_ascii_case(b"ts") {
         return true;
     }
-    let Some(mid) = ext.strip_prefix('s').and_then(|e| e.strip_suffix('p')) else {
+    let [s, mid @ .., p] = ext else {
         return false;
     };
-    !mid.is_empty() && mid.bytes().all(|b| b.is_ascii_digit()) && mid.bytes().any(|b| b != b'0')
+    s.eq_ignore_ascii_case(&b's')
+        && p.eq_ignore_ascii_case(&b'p')
+        && !mid.is_empty()
+        && mid.iter().all(u8::is_ascii_digit)
+        && mid.iter().any(|&b| b != b'0')
 }
 
 /// The port count a `*.sNp` name announces (None for `*.ts` and other names).
@@ -143,11 +190,19 @@ pub fn walk(root: &Path, opts: &WalkOptions) -> Result<Walk, WalkError> {
         return Err(WalkError::NotALibrary(shown_root));
     }
 
+    // not sorted by walkdir: the parts and notes are sorted below, and which entry of a
+    // link loop is reported does not depend on the order (only ancestors make loops)
+    let mut sidecars = HashSet::new();
     let walker = walkdir::WalkDir::new(root)
         .follow_links(opts.follow_links)
-        .sort_by_file_name()
         .into_iter()
-        .filter_entry(|e| e.depth() == 0 || !(hidden(e.file_name()) || e.file_name() == CACHE_DIR));
+        .filter_entry(|e| {
+            // `file_name` parses the path: once per entry
+            e.depth() == 0 || {
+                let name = e.file_name();
+                !(hidden(name) || name == CACHE_DIR)
+            }
+        });
     for item in walker {
         let entry = match item {
             Ok(e) => e,
@@ -179,14 +234,22 @@ pub fn walk(root: &Path, opts: &WalkOptions) -> Result<Walk, WalkError> {
         if ft.is_dir() {
             continue;
         }
-        if !is_touchstone_name(entry.file_name()) {
+        let name = entry.file_name();
+        if name.as_encoded_bytes().ends_with(SIDECAR_SUFFIX.as_bytes()) {
+            // a link counts as its target, as `Path::is_file` has it
+            if ft.is_file() || (ft.is_symlink() && entry.path().is_file()) {
+                sidecars.insert(entry.into_path());
+            }
             continue;
         }
-        let rel = rel_name(root, entry.path());
+        if !is_touchstone_name(name) {
+            continue;
+        }
+        let rel = walked_rel(root, entry.path());
         if ft.is_file() {
             out.parts.push(PartFile {
                 rel,
-                path: entry.path().to_path_buf(),
+                path: entry.into_path(),
                 error: None,
             });
         } else if ft.is_symlink() {
@@ -203,10 +266,38 @@ pub fn walk(root: &Path, opts: &WalkOptions) -> Result<Walk, WalkError> {
             ));
         }
     }
+    // no two parts have the same path, so an unstable sort gives the one order
     out.parts
-        .sort_by(|a, b| a.rel.cmp(&b.rel).then_with(|| a.path.cmp(&b.path)));
+        .sort_unstable_by(|a, b| a.rel.cmp(&b.rel).then_with(|| a.path.cmp(&b.path)));
     out.notes.sort();
+    out.sidecars = Some(sidecars);
     Ok(out)
+}
+
+/// [`rel_name`] of a path the walk made by joining file names onto `root`: the bytes
+/// after the root's, without the separators between, converted lossily. The same string
+/// (a name holds no `/`, and a lossy conversion never merges bytes across a `/`), made
+/// without parsing the path into components; any other path goes through `rel_name`.
+fn walked_rel(root: &Path, path: &Path) -> String {
+    #[cfg(unix)]
+    {
+        let r = root.as_os_str().as_encoded_bytes();
+        let p = path.as_os_str().as_encoded_bytes();
+        if let Some(rest) = p.strip_prefix(r) {
+            let joined = r.last() == Some(&b'/') || rest.first() == Some(&b'/');
+            let mut rest = rest;
+            while let [b'/', tail @ ..] = rest {
+                rest = tail;
+            }
+            let plain = rest
+                .split(|&b| b == b'/')
+                .all(|c| !c.is_empty() && c != b"." && c != b"..");
+            if joined && plain {
+                return String::from_utf8_lossy(rest).into_owned();
+            }
+        }
+    }
+    rel_name(root, path)
 }
 
 #[cfg(test)]
@@ -338,5 +429,51 @@ mod tests {
         }
         let w = walk(d.path(), &WalkOptions::default()).unwrap();
         assert_eq!(w.parts[0].rel, "coil_\u{fffd}.s2p");
+    }
+
+    /// `Walk::sidecar_of` answers from the walk's folder listings what
+    /// `sidecar_path` asks the file system: the same answer for every part.
+    #[test]
+    fn sidecars_from_the_listings_are_those_on_disk() {
+        let d = tempfile::tempdir().unwrap();
+        let r = d.path();
+        let same = |opts: &WalkOptions, want: usize| {
+            let w = walk(r, opts).unwrap();
+            let mut found = 0;
+            for p in &w.parts {
+                let fast = w.sidecar_of(p);
+                assert_eq!(fast, crate::library::sidecar_path(&p.path), "{}", p.rel);
+                found += usize::from(fast.is_some());
+            }
+            assert_eq!(found, want);
+        };
+        touch(&r.join("a/stem.s2p"));
+        touch(&r.join("a/full.s2p"));
+        touch(&r.join("a/both.s2p"));
+        touch(&r.join("a/none.s2p"));
+        touch(&r.join("b/c/deep.s4p"));
+        touch(&r.join("b/dir.s2p"));
+        touch(&r.join("noext.ts"));
+        same(&WalkOptions::default(), 0);
+        fs::write(r.join("a/stem.part.yaml"), "x").unwrap();
+        fs::write(r.join("a/full.s2p.part.yaml"), "x").unwrap();
+        fs::write(r.join("a/both.part.yaml"), "x").unwrap();
+        fs::write(r.join("a/both.s2p.part.yaml"), "x").unwrap();
+        fs::write(r.join("b/c/deep.part.yaml"), "x").unwrap();
+        fs::write(r.join("b/c/other.part.yaml"), "x").unwrap();
+        // a folder with a sidecar's name is no sidecar
+        fs::create_dir_all(r.join("b/dir.part.yaml")).unwrap();
+        same(&WalkOptions::default(), 4);
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::symlink;
+            // a link to a sidecar counts as its target; a dangling one does not
+            touch(&r.join("l/linked.s2p"));
+            touch(&r.join("l/dangling.s2p"));
+            symlink(r.join("a/stem.part.yaml"), r.join("l/linked.part.yaml")).unwrap();
+            symlink(r.join("l/gone"), r.join("l/dangling.part.yaml")).unwrap();
+            same(&WalkOptions::default(), 5);
+            same(&WalkOptions { follow_links: true }, 5);
+        }
     }
 }
