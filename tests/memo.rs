@@ -174,3 +174,58 @@ fn fresh_files_are_never_memoised() {
     s.check(&["--no-cache"]);
     assert!(!replayed(&s.check(&["--no-cache"])));
 }
+
+/// Write `text` to `path` and set its modification time an hour back.
+fn write_old(path: &Path, text: &str) {
+    fs::write(path, text).unwrap();
+    let f = fs::OpenOptions::new().write(true).open(path).unwrap();
+    f.set_modified(SystemTime::now() - Duration::from_secs(3600))
+        .unwrap();
+}
+
+#[test]
+fn a_sidecar_appearing_changing_or_going_away_judges_again() {
+    // the memo finds sidecars in the folder listings of its walk, not by asking the
+    // file system per part: each of these must still be seen. Only the sidecar itself
+    // is aged (aging a folder would change its parts' change times, a miss anyway).
+    let s = Setup::new();
+    s.check(&[]);
+    assert!(replayed(&s.check(&[])));
+
+    // the first sidecar of the whole library, by the part's stem
+    let stem = s.path("lib/coils/L1p0n.part.yaml");
+    write_old(&stem, "band: 1GHz .. 2GHz\n");
+    assert!(!replayed(&s.check(&[])));
+    assert!(replayed(&s.check(&[])));
+
+    // its content changed, with an old time
+    write_old(&stem, "band: 1GHz .. 3GHz\n");
+    assert!(!replayed(&s.check(&[])));
+    assert!(replayed(&s.check(&[])));
+
+    // one by the full name appears beside it and wins
+    let full = s.path("lib/coils/L1p0n.s2p.part.yaml");
+    write_old(&full, "band: 1GHz .. 3GHz\n");
+    assert!(!replayed(&s.check(&[])));
+    assert!(replayed(&s.check(&[])));
+
+    // a sidecar in another folder, for a part there
+    write_old(&s.path("lib/caps/C0p5p.part.yaml"), "band: 1GHz .. 2GHz\n");
+    assert!(!replayed(&s.check(&[])));
+    assert!(replayed(&s.check(&[])));
+
+    // one that belongs to no part changes nothing
+    write_old(
+        &s.path("lib/caps/nothing.part.yaml"),
+        "band: 1GHz .. 2GHz\n",
+    );
+    assert!(replayed(&s.check(&[])));
+
+    // the winning one removed, then the last of that part
+    fs::remove_file(&full).unwrap();
+    assert!(!replayed(&s.check(&[])));
+    assert!(replayed(&s.check(&[])));
+    fs::remove_file(&stem).unwrap();
+    assert!(!replayed(&s.check(&[])));
+    assert!(replayed(&s.check(&[])));
+}

@@ -24,7 +24,7 @@ use std::time::{Duration, SystemTime};
 
 use serde::{Deserialize, Serialize};
 
-use crate::library::{self, Walk};
+use crate::library::Walk;
 use crate::verdict::RulesFileInfo;
 
 /// Format tag of a memo file.
@@ -111,9 +111,100 @@ fn stamp(path: &Path) -> Option<(String, SystemTime)> {
     Some((format!("{}:{}:{extra}", m.len(), since(modified)), modified))
 }
 
-fn field(h: &mut blake3::Hasher, bytes: &[u8]) {
-    h.update(&(bytes.len() as u64).to_le_bytes());
-    h.update(bytes);
+/// The fields of the memo key, each length first (as [`field`] feeds them) so that no
+/// two field lists read alike, gathered in one buffer and hashed once: the key takes
+/// several fields for each of thousands of parts on every run, and one large update is
+/// far cheaper than many small ones.
+struct KeyBytes(Vec<u8>);
+
+impl KeyBytes {
+    fn field(&mut self, bytes: &[u8]) {
+        self.0
+            .extend_from_slice(&(bytes.len() as u64).to_le_bytes());
+        self.0.extend_from_slice(bytes);
+    }
+
+    /// Take the stat stamp of `path` (the fields [`stamp`] shows, as raw numbers:
+    /// formatting them as text cost more than the `stat` itself) and tell whether the
+    /// file is too fresh to be trusted by its times (modified at or after `fresh`);
+    /// `absent` when it cannot be read.
+    fn stamp(&mut self, path: &Path, fresh: &Fresh) -> bool {
+        let Ok(m) = fs::metadata(path) else {
+            self.field(b"absent");
+            return false;
+        };
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::MetadataExt;
+            let (mtime, mtime_nsec) = (m.mtime(), m.mtime_nsec());
+            let mut b = [0u8; 7 * 8];
+            for (i, v) in [
+                m.size(),
+                mtime as u64,
+                mtime_nsec as u64,
+                m.ino(),
+                m.dev(),
+                m.ctime() as u64,
+                m.ctime_nsec() as u64,
+            ]
+            .into_iter()
+            .enumerate()
+            {
+                b[i * 8..i * 8 + 8].copy_from_slice(&v.to_le_bytes());
+            }
+            self.field(&b);
+            (mtime, mtime_nsec) >= (fresh.secs, fresh.nanos)
+        }
+        #[cfg(not(unix))]
+        {
+            let modified = m.modified().ok();
+            let since = modified
+                .and_then(|t| t.duration_since(SystemTime::UNIX_EPOCH).ok())
+                .map(|d| d.as_nanos())
+                .unwrap_or(0);
+            let mut b = [0u8; 8 + 16];
+            b[..8].copy_from_slice(&m.len().to_le_bytes());
+            b[8..].copy_from_slice(&since.to_le_bytes());
+            self.field(&b);
+            modified.is_none_or(|t| t >= fresh.at)
+        }
+    }
+}
+
+/// The time from which a file is too fresh to be trusted by its times.
+struct Fresh {
+    #[cfg(unix)]
+    secs: i64,
+    #[cfg(unix)]
+    nanos: i64,
+    #[cfg(not(unix))]
+    at: SystemTime,
+}
+
+impl Fresh {
+    fn new(started: SystemTime) -> Fresh {
+        let at = started.checked_sub(RACY_MARGIN).unwrap_or(started);
+        #[cfg(unix)]
+        {
+            // seconds and nanoseconds as `stat` gives them (nanoseconds never
+            // negative, also before 1970)
+            let (secs, nanos) = match at.duration_since(SystemTime::UNIX_EPOCH) {
+                Ok(d) => (d.as_secs() as i64, i64::from(d.subsec_nanos())),
+                Err(e) => {
+                    let d = e.duration();
+                    let (s, n) = (d.as_secs() as i64, i64::from(d.subsec_nanos()));
+                    if n == 0 {
+                        (-s, 0)
+                    } else {
+                        (-s - 1, 1_000_000_000 - n)
+                    }
+                }
+            };
+            Fresh { secs, nanos }
+        }
+        #[cfg(not(unix))]
+        Fresh { at }
+    }
 }
 
 impl RunMemo {
@@ -126,67 +217,60 @@ impl RunMemo {
         walk: &Walk,
         started: SystemTime,
     ) -> RunMemo {
-        let mut h = blake3::Hasher::new();
-        field(&mut h, MEMO_FORMAT.as_bytes());
-        field(&mut h, crate::TOOL_VERSION.as_bytes());
-        field(&mut h, super::cache::build_id().as_bytes());
-        field(&mut h, inputs.library.to_string_lossy().as_bytes());
-        field(&mut h, &(inputs.rules.len() as u64).to_le_bytes());
+        let mut k = KeyBytes(Vec::with_capacity(4096 + 160 * walk.parts.len()));
+        k.field(MEMO_FORMAT.as_bytes());
+        k.field(crate::TOOL_VERSION.as_bytes());
+        k.field(super::cache::build_id().as_bytes());
+        k.field(inputs.library.as_os_str().as_encoded_bytes());
+        k.field(&(inputs.rules.len() as u64).to_le_bytes());
         for r in inputs.rules {
-            field(&mut h, r.path.as_bytes());
-            field(&mut h, r.hash.as_bytes());
+            k.field(r.path.as_bytes());
+            k.field(r.hash.as_bytes());
         }
         let mut trustworthy = true;
         match inputs.baseline {
-            None => field(&mut h, b"no baseline"),
+            None => k.field(b"no baseline"),
             Some(b) => {
-                field(&mut h, b.to_string_lossy().as_bytes());
+                k.field(b.as_os_str().as_encoded_bytes());
                 match super::cache::hash_file(b) {
-                    Ok(x) => field(&mut h, x.as_bytes()),
+                    Ok(x) => k.field(x.as_bytes()),
                     // the run itself will say why; never memoise it
                     Err(_) => trustworthy = false,
                 }
             }
         }
-        field(&mut h, format!("{:?}", inputs.shard).as_bytes());
-        field(
-            &mut h,
-            &[u8::from(inputs.strict), u8::from(inputs.follow_links)],
-        );
+        k.field(format!("{:?}", inputs.shard).as_bytes());
+        k.field(&[u8::from(inputs.strict), u8::from(inputs.follow_links)]);
         match inputs.report_dir {
-            None => field(&mut h, b"no reports"),
-            Some(d) => field(&mut h, d.to_string_lossy().as_bytes()),
+            None => k.field(b"no reports"),
+            Some(d) => k.field(d.as_os_str().as_encoded_bytes()),
         }
-        field(&mut h, inputs.presentation.as_bytes());
-        field(&mut h, &(walk.parts.len() as u64).to_le_bytes());
-        let fresh = started.checked_sub(RACY_MARGIN).unwrap_or(started);
-        let mut add = |h: &mut blake3::Hasher, path: &Path| match stamp(path) {
-            Some((s, modified)) => {
-                if modified >= fresh {
-                    trustworthy = false;
-                }
-                field(h, s.as_bytes());
-            }
-            None => field(h, b"absent"),
-        };
+        k.field(inputs.presentation.as_bytes());
+        k.field(&(walk.parts.len() as u64).to_le_bytes());
+        let fresh = Fresh::new(started);
         for p in &walk.parts {
-            field(&mut h, p.rel.as_bytes());
-            field(&mut h, p.path.to_string_lossy().as_bytes());
-            field(&mut h, p.error.as_deref().unwrap_or("").as_bytes());
-            add(&mut h, &p.path);
+            k.field(p.rel.as_bytes());
+            k.field(p.path.as_os_str().as_encoded_bytes());
+            k.field(p.error.as_deref().unwrap_or("").as_bytes());
+            if k.stamp(&p.path, &fresh) {
+                trustworthy = false;
+            }
             // a sidecar appearing, changing or going away changes the run
-            match library::sidecar_path(&p.path) {
+            match walk.sidecar_of(p) {
                 Some(s) => {
-                    field(&mut h, s.to_string_lossy().as_bytes());
-                    add(&mut h, &s);
+                    k.field(s.as_os_str().as_encoded_bytes());
+                    if k.stamp(&s, &fresh) {
+                        trustworthy = false;
+                    }
                 }
-                None => field(&mut h, b"no sidecar"),
+                None => k.field(b"no sidecar"),
             }
         }
+        k.field(&(walk.notes.len() as u64).to_le_bytes());
         for n in &walk.notes {
-            field(&mut h, n.as_bytes());
+            k.field(n.as_bytes());
         }
-        let key = h.finalize().to_hex().to_string();
+        let key = blake3::hash(&k.0).to_hex().to_string();
         RunMemo {
             file: cache_dir.join("runs").join(format!("{}.json", &key[..32])),
             key,
