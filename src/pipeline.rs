@@ -206,8 +206,8 @@ impl Prepared {
     /// Judge one part through the cache; the notes are the cache's.
     fn judge(&self, part: &PartFile, progress: &dyn Progress) -> (Judged, Vec<String>) {
         let mut notes = Vec::new();
-        let j = baseline::cache::judge(self.cache.as_ref(), part, &mut notes, || {
-            judge_part_guarded(part, &self.rules, self.strict)
+        let j = baseline::cache::judge(self.cache.as_ref(), part, &mut notes, |bytes| {
+            judge_part_guarded(part, bytes, &self.rules, self.strict)
         });
         progress.part_done(&part.rel);
         (j, notes)
@@ -553,10 +553,13 @@ pub fn part_passes(p: &PartReport) -> bool {
 /// cannot take the nightly run down with it.
 fn judge_part_guarded(
     part: &PartFile,
+    bytes: Option<&[u8]>,
     rules: &RuleSet,
     strict: bool,
 ) -> (PartReport, Vec<Measure>) {
-    match catch_unwind(AssertUnwindSafe(|| judge_part(part, rules, strict))) {
+    match catch_unwind(AssertUnwindSafe(|| {
+        judge_part_from(part, bytes, rules, strict)
+    })) {
         Ok(r) => r,
         Err(payload) => {
             let what = payload
@@ -620,12 +623,29 @@ impl<'n> FigureCache<'n> {
 /// the figures, evaluate the checks, measure the drift quantities of the rules files
 /// that select it. The network is dropped on return.
 pub fn judge_part(part: &PartFile, rules: &RuleSet, strict: bool) -> (PartReport, Vec<Measure>) {
+    judge_part_from(part, None, rules, strict)
+}
+
+/// [`judge_part`] with the file's `bytes` when the caller already read them (the cache
+/// reads a small file once to hash it), so that the file is not read twice. Gives the
+/// same result as `judge_part` for the same bytes (tests/single_read.rs).
+pub fn judge_part_from(
+    part: &PartFile,
+    bytes: Option<&[u8]>,
+    rules: &RuleSet,
+    strict: bool,
+) -> (PartReport, Vec<Measure>) {
     if let Some(e) = &part.error {
         let mut r = bare(part, PartStatus::Unreadable);
         r.error = Some(e.clone());
         return (r, Vec::new());
     }
-    let net = match crate::touchstone::read_path(&part.path) {
+    let read = match bytes {
+        // named as read_path names the file in its messages
+        Some(b) => crate::touchstone::read_bytes(&part.path.display().to_string(), b),
+        None => crate::touchstone::read_path(&part.path),
+    };
+    let net = match read {
         Ok(ts) => ts.network,
         Err(e) => {
             let mut r = bare(part, PartStatus::Unreadable);

@@ -101,6 +101,26 @@ pub fn hash_file(path: &Path) -> io::Result<blake3::Hash> {
     Ok(blake3::Hasher::new().update_reader(f)?.finalize())
 }
 
+/// Parts smaller than this are read into memory once, hashed there, and the same bytes
+/// handed to the reader; larger ones are hashed in a stream and read again by the
+/// reader, which takes them in blocks (`touchstone::read_path` does so from 8 MiB on,
+/// so below this size it would read the whole file at once anyway).
+pub const SINGLE_READ_MAX: u64 = 8 << 20;
+
+/// The hash of a part's file and, when it is smaller than [`SINGLE_READ_MAX`], its
+/// bytes.
+fn hash_part(path: &Path) -> io::Result<(blake3::Hash, Option<Vec<u8>>)> {
+    let mut f = File::open(path)?;
+    match f.metadata()?.len() {
+        n if n < SINGLE_READ_MAX => {
+            let mut bytes = Vec::with_capacity(n as usize + 1);
+            io::Read::read_to_end(&mut f, &mut bytes)?;
+            Ok((blake3::hash(&bytes), Some(bytes)))
+        }
+        _ => Ok((blake3::Hasher::new().update_reader(f)?.finalize(), None)),
+    }
+}
+
 impl Cache {
     /// The cache in `dir` for a run with these rules and `--strict` setting. Nothing is
     /// created until the first entry is stored.
@@ -231,13 +251,15 @@ impl Cache {
     }
 
     /// Judge `part` through the cache: hash it, take a valid entry if there is one,
-    /// else `compute` and store the result. Warnings (an entry ignored, a folder that
-    /// cannot be written) are pushed to `notes`.
+    /// else `compute` and store the result. `compute` is given the part's bytes when
+    /// they were read for the hash (a file below [`SINGLE_READ_MAX`]), so that it need
+    /// not read the file again; with None it reads the file itself. Warnings (an entry
+    /// ignored, a folder that cannot be written) are pushed to `notes`.
     pub fn judge(
         &self,
         part: &PartFile,
         notes: &mut Vec<String>,
-        compute: impl FnOnce() -> (PartReport, Vec<Measure>),
+        compute: impl FnOnce(Option<&[u8]>) -> (PartReport, Vec<Measure>),
     ) -> Judged {
         judge(Some(self), part, notes, compute)
     }
@@ -249,12 +271,15 @@ pub fn judge(
     cache: Option<&Cache>,
     part: &PartFile,
     notes: &mut Vec<String>,
-    compute: impl FnOnce() -> (PartReport, Vec<Measure>),
+    compute: impl FnOnce(Option<&[u8]>) -> (PartReport, Vec<Measure>),
 ) -> Judged {
     // a file that cannot be hashed cannot be read either: the reader says why
-    let content = match &part.error {
-        None => hash_file(&part.path).ok(),
-        Some(_) => None,
+    let (content, bytes) = match &part.error {
+        None => match hash_part(&part.path) {
+            Ok((h, bytes)) => (Some(h), bytes),
+            Err(_) => (None, None),
+        },
+        Some(_) => (None, None),
     };
     let keyed = match (cache, &content) {
         (Some(cache), Some(content)) => cache_key(cache, part, content).map(|k| (cache, k)),
@@ -271,7 +296,8 @@ pub fn judge(
             )),
         }
     }
-    let (report, measures) = compute();
+    let (report, measures) = compute(bytes.as_deref());
+    drop(bytes);
     let judged = Judged {
         report,
         hash: content.map(|h| h.to_hex().to_string()),
@@ -356,7 +382,11 @@ mod tests {
     fn run(cache: Option<&Cache>, part: &PartFile, q: f64) -> (Judged, Vec<String>, usize) {
         let mut notes = Vec::new();
         let mut calls = 0;
-        let j = judge(cache, part, &mut notes, || {
+        let j = judge(cache, part, &mut notes, |bytes| {
+            // the bytes handed over are the file's
+            if let Some(b) = bytes {
+                assert_eq!(b, fs::read(&part.path).unwrap());
+            }
             calls += 1;
             (report(&part.rel, q), vec![])
         });
@@ -469,6 +499,21 @@ mod tests {
         assert_eq!(notes.len(), 1);
         assert!(notes[0].contains("cannot be written"));
         assert!(run(Some(&c), &part, 1.0).1.is_empty(), "warned once");
+    }
+
+    #[test]
+    fn a_small_part_is_read_once_and_hashed_from_memory() {
+        let lib = Lib::new();
+        let part = lib.part();
+        let (h, bytes) = hash_part(&part.path).unwrap();
+        assert_eq!(h, hash_file(&part.path).unwrap());
+        assert_eq!(bytes.unwrap(), fs::read(&part.path).unwrap());
+        let mut handed = None;
+        judge(None, &part, &mut Vec::new(), |b| {
+            handed = b.map(<[u8]>::to_vec);
+            (report(&part.rel, 1.0), vec![])
+        });
+        assert_eq!(handed.unwrap(), fs::read(&part.path).unwrap());
     }
 
     #[test]
