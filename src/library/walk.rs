@@ -476,4 +476,32 @@ mod tests {
             same(&WalkOptions { follow_links: true }, 5);
         }
     }
+
+    /// `walked_rel` is `rel_name` for every path the walk makes (a root joined with
+    /// names), however the root is written.
+    #[test]
+    fn walked_names_are_rel_names() {
+        for root in [
+            "lib", "lib/", "lib//", "./lib", ".", "./", "/abs/lib", "lib/.", "../lib", "a/../lib",
+        ] {
+            let root = Path::new(root);
+            for names in [&["x.s2p"][..], &["b", "x.s2p"], &["b", "c", "\u{e9}.ts"]] {
+                let mut path = root.to_path_buf();
+                for n in names {
+                    path.push(n);
+                }
+                assert_eq!(
+                    walked_rel(root, &path),
+                    rel_name(root, &path),
+                    "{}",
+                    path.display()
+                );
+            }
+        }
+        // not a path the walk makes: the general rule
+        assert_eq!(
+            walked_rel(Path::new("a"), Path::new("ab/x.s2p")),
+            "ab/x.s2p"
+        );
+    }
 }
