@@ -178,18 +178,20 @@ pub fn decimate(
     // for the usual case and accept up to about twice the target for noise.
     let per_bucket = 1 + series.len();
     let buckets = (target / per_bucket).max(1);
-    let (l0, l1) = (freq[0].ln(), freq[n - 1].ln());
+    // each point's log frequency once (the bucket walk reads most of them twice)
+    let lf: Vec<f64> = freq.iter().map(|f| f.ln()).collect();
+    let (l0, l1) = (lf[0], lf[n - 1]);
     let width = (l1 - l0) / buckets as f64;
     let mut start = 0;
     while start < n {
         let b = if width > 0.0 {
-            (((freq[start].ln() - l0) / width).floor() as usize).min(buckets - 1)
+            (((lf[start] - l0) / width).floor() as usize).min(buckets - 1)
         } else {
             buckets - 1
         };
         let edge = l0 + width * (b + 1) as f64;
         let mut end = start + 1;
-        while end < n && (b == buckets - 1 || freq[end].ln() < edge) {
+        while end < n && (b == buckets - 1 || lf[end] < edge) {
             end += 1;
         }
         keep[start] = true;
