@@ -74,27 +74,30 @@ fn solve(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
 
 /// [`solve`] taking its operands: no allocation but the ones given.
 fn solve_owned(mut a: Vec<C64>, mut x: Vec<C64>, n: usize) -> Option<Vec<C64>> {
-    solve_in_place(&mut a, &mut x, n).then_some(x)
+    solve_in_place(&mut a, &mut x, n, n).then_some(x)
 }
 
-/// [`solve`] in place: A is overwritten by its LU factors, B by X. False when A is
-/// singular or X is not finite (A and B are then garbage).
-fn solve_in_place(a: &mut [C64], x: &mut [C64], n: usize) -> bool {
-    // One body, instantiated with n known for the sizes of the views (3- and 4-ports
-    // and their Y blocks): the compiler then unrolls it and drops the bounds checks, a
-    // 4×4 solve costing about a third of the instructions. The operations and their
-    // order are the same, so are the bits.
-    match n {
-        3 => solve_body(a, x, 3),
-        4 => solve_body(a, x, 4),
-        _ => solve_body(a, x, n),
+/// [`solve`] in place for an N×M right-hand side X (row-major): A is overwritten by
+/// its LU factors, B by X. False when A is singular or X is not finite (A and B are
+/// then garbage). The columns of X are independent: a column comes out with the same
+/// bits whatever M is, so a caller that needs only some columns solves only those.
+fn solve_in_place(a: &mut [C64], x: &mut [C64], n: usize, m: usize) -> bool {
+    // One body, instantiated with n and m known for the sizes of the views (3- and
+    // 4-ports, their Y blocks, the two winding columns): the compiler then unrolls it
+    // and drops the bounds checks, a 4×4 solve costing about a third of the
+    // instructions. The operations and their order are the same, so are the bits.
+    match (n, m) {
+        (3, 3) => solve_body(a, x, 3, 3),
+        (4, 4) => solve_body(a, x, 4, 4),
+        (4, 2) => solve_body(a, x, 4, 2),
+        _ => solve_body(a, x, n, m),
     }
 }
 
 #[inline(always)]
-fn solve_body(a: &mut [C64], x: &mut [C64], n: usize) -> bool {
+fn solve_body(a: &mut [C64], x: &mut [C64], n: usize, m: usize) -> bool {
     let scale = a.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
-    if !(scale.is_finite()) || scale == 0.0 || a.len() != n * n || x.len() != n * n {
+    if !(scale.is_finite()) || scale == 0.0 || a.len() != n * n || x.len() != n * m {
         return false;
     }
     let zero = C64::new(0.0, 0.0);
@@ -112,7 +115,9 @@ fn solve_body(a: &mut [C64], x: &mut [C64], n: usize) -> bool {
         if p != c {
             for j in 0..n {
                 a.swap(p * n + j, c * n + j);
-                x.swap(p * n + j, c * n + j);
+            }
+            for j in 0..m {
+                x.swap(p * m + j, c * m + j);
             }
         }
         let inv = one() / a[c * n + c];
@@ -125,23 +130,23 @@ fn solve_body(a: &mut [C64], x: &mut [C64], n: usize) -> bool {
                 let v = a[c * n + j];
                 a[r * n + j] -= f * v;
             }
-            for j in 0..n {
-                let v = x[c * n + j];
-                x[r * n + j] -= f * v;
+            for j in 0..m {
+                let v = x[c * m + j];
+                x[r * m + j] -= f * v;
             }
         }
     }
     for c in (0..n).rev() {
         let inv = one() / a[c * n + c];
-        for j in 0..n {
-            x[c * n + j] *= inv;
+        for j in 0..m {
+            x[c * m + j] *= inv;
         }
         for r in 0..c {
             let f = a[r * n + c];
             if f != zero {
-                for j in 0..n {
-                    let v = x[c * n + j];
-                    x[r * n + j] -= f * v;
+                for j in 0..m {
+                    let v = x[c * m + j];
+                    x[r * m + j] -= f * v;
                 }
             }
         }
@@ -310,7 +315,7 @@ fn from_s_into(
         _ => {
             eye_plus_into(s, n, sa, work);
             eye_plus_into(s, n, sb, out);
-            if !solve_in_place(work, out, n) {
+            if !solve_in_place(work, out, n, n) {
                 return false;
             }
         }
@@ -486,10 +491,12 @@ pub fn solve_block(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
     }
 }
 
-/// [`solve_block`] for N > 2 without allocating: A is overwritten by its LU factors
-/// and B by X. False when A is singular (A and B are then garbage).
+/// [`solve_block`] for N > 2 without allocating, for an N×M right-hand side `b`
+/// (row-major, M = `b.len()` / N): A is overwritten by its LU factors and B by X.
+/// False when A is singular (A and B are then garbage). Each column of X has the
+/// bits it has in a solve with any other M.
 pub fn solve_block_in_place(a: &mut [C64], b: &mut [C64], n: usize) -> bool {
-    n > 2 && solve_in_place(a, b, n)
+    n > 2 && b.len() % n == 0 && solve_in_place(a, b, n, b.len() / n)
 }
 
 #[cfg(test)]

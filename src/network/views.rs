@@ -252,8 +252,7 @@ fn winding_z(
     idx: &[usize],
     conv: &mut BlockConverter,
 ) -> Option<[C64; 4]> {
-    // T in the local order (a, b, c, d): columns e_a − e_b and e_c − e_d, row-major 4×2
-    // padded to 4×4 with zero columns so the square solver serves.
+    // T in the local order (a, b, c, d): columns e_a − e_b and e_c − e_d (4×2)
     let one = C64::new(1.0, 0.0);
     let zero = C64::new(0.0, 0.0);
     let t = [[one, zero], [-one, zero], [zero, one], [zero, -one]];
@@ -270,17 +269,18 @@ fn winding_z(
     };
     if let Some(y) = conv.y(net.s_block(k)) {
         let mut y4 = local(y);
-        let mut x = [zero; 16];
+        // X = Y₄⁻¹ T, row-major 4×2
+        let mut x = [zero; 8];
         for i in 0..4 {
-            x[i * 4] = t[i][0];
-            x[i * 4 + 1] = t[i][1];
+            x[i * 2] = t[i][0];
+            x[i * 2 + 1] = t[i][1];
         }
         if convert::solve_block_in_place(&mut y4, &mut x, 4) {
-            // Tᵀ X: X's first two columns are Y₄⁻¹ T
+            // Tᵀ X
             let mut out = [zero; 4];
             for r in 0..2 {
                 for c in 0..2 {
-                    out[r * 2 + c] = (0..4).map(|i| t[i][r] * x[i * 4 + c]).sum();
+                    out[r * 2 + c] = (0..4).map(|i| t[i][r] * x[i * 2 + c]).sum();
                 }
             }
             return Some(out);
