@@ -496,7 +496,7 @@ pub fn solve_block(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
 /// False when A is singular (A and B are then garbage). Each column of X has the
 /// bits it has in a solve with any other M.
 pub fn solve_block_in_place(a: &mut [C64], b: &mut [C64], n: usize) -> bool {
-    n > 2 && b.len() % n == 0 && solve_in_place(a, b, n, b.len() / n)
+    n > 2 && b.len().is_multiple_of(n) && solve_in_place(a, b, n, b.len() / n)
 }
 
 #[cfg(test)]
