@@ -74,14 +74,30 @@ fn solve(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
 
 /// [`solve`] taking its operands: no allocation but the ones given.
 fn solve_owned(mut a: Vec<C64>, mut x: Vec<C64>, n: usize) -> Option<Vec<C64>> {
-    solve_in_place(&mut a, &mut x, n).then_some(x)
+    solve_in_place(&mut a, &mut x, n, n).then_some(x)
 }
 
-/// [`solve`] in place: A is overwritten by its LU factors, B by X. False when A is
-/// singular or X is not finite (A and B are then garbage).
-fn solve_in_place(a: &mut [C64], x: &mut [C64], n: usize) -> bool {
+/// [`solve`] in place for an N×M right-hand side X (row-major): A is overwritten by
+/// its LU factors, B by X. False when A is singular or X is not finite (A and B are
+/// then garbage). The columns of X are independent: a column comes out with the same
+/// bits whatever M is, so a caller that needs only some columns solves only those.
+fn solve_in_place(a: &mut [C64], x: &mut [C64], n: usize, m: usize) -> bool {
+    // One body, instantiated with n and m known for the sizes of the views (3- and
+    // 4-ports, their Y blocks, the two winding columns): the compiler then unrolls it
+    // and drops the bounds checks, a 4×4 solve costing about a third of the
+    // instructions. The operations and their order are the same, so are the bits.
+    match (n, m) {
+        (3, 3) => solve_body(a, x, 3, 3),
+        (4, 4) => solve_body(a, x, 4, 4),
+        (4, 2) => solve_body(a, x, 4, 2),
+        _ => solve_body(a, x, n, m),
+    }
+}
+
+#[inline(always)]
+fn solve_body(a: &mut [C64], x: &mut [C64], n: usize, m: usize) -> bool {
     let scale = a.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
-    if !(scale.is_finite()) || scale == 0.0 || a.len() != n * n || x.len() != n * n {
+    if !(scale.is_finite()) || scale == 0.0 || a.len() != n * n || x.len() != n * m {
         return false;
     }
     let zero = C64::new(0.0, 0.0);
@@ -99,7 +115,9 @@ fn solve_in_place(a: &mut [C64], x: &mut [C64], n: usize) -> bool {
         if p != c {
             for j in 0..n {
                 a.swap(p * n + j, c * n + j);
-                x.swap(p * n + j, c * n + j);
+            }
+            for j in 0..m {
+                x.swap(p * m + j, c * m + j);
             }
         }
         let inv = one() / a[c * n + c];
@@ -112,23 +130,23 @@ fn solve_in_place(a: &mut [C64], x: &mut [C64], n: usize) -> bool {
                 let v = a[c * n + j];
                 a[r * n + j] -= f * v;
             }
-            for j in 0..n {
-                let v = x[c * n + j];
-                x[r * n + j] -= f * v;
+            for j in 0..m {
+                let v = x[c * m + j];
+                x[r * m + j] -= f * v;
             }
         }
     }
     for c in (0..n).rev() {
         let inv = one() / a[c * n + c];
-        for j in 0..n {
-            x[c * n + j] *= inv;
+        for j in 0..m {
+            x[c * m + j] *= inv;
         }
         for r in 0..c {
             let f = a[r * n + c];
             if f != zero {
-                for j in 0..n {
-                    let v = x[c * n + j];
-                    x[r * n + j] -= f * v;
+                for j in 0..m {
+                    let v = x[c * m + j];
+                    x[r * m + j] -= f * v;
                 }
             }
         }
@@ -154,36 +172,49 @@ fn solve2(a: &[C64], b: &[C64]) -> Option<Vec<C64>> {
 }
 
 fn check(m: &[C64], n: usize, z0: &[f64]) -> bool {
-    n > 0
-        && m.len() == n * n
-        && z0.len() == n
-        && z0.iter().all(|z| z.is_finite() && *z > 0.0)
-        && all_finite(m)
+    refs_ok(z0, n) && m.len() == n * n && all_finite(m)
+}
+
+/// `n` ports with finite, positive references.
+fn refs_ok(z0: &[f64], n: usize) -> bool {
+    n > 0 && z0.len() == n && z0.iter().all(|z| z.is_finite() && *z > 0.0)
 }
 
 /// I + sign·M
 fn eye_plus(m: &[C64], n: usize, sign: f64) -> Vec<C64> {
-    let mut out: Vec<C64> = m.iter().map(|c| c * sign).collect();
+    let mut out = vec![C64::new(0.0, 0.0); m.len()];
+    eye_plus_into(m, n, sign, &mut out);
+    out
+}
+
+/// [`eye_plus`] into `out` (same length as `m`).
+fn eye_plus_into(m: &[C64], n: usize, sign: f64, out: &mut [C64]) {
+    for (o, c) in out.iter_mut().zip(m) {
+        *o = c * sign;
+    }
     for i in 0..n {
         out[i * n + i] += one();
     }
-    out
+}
+
+/// d_i · d_j where d = √z0 (`pow` = 1) or 1/√z0 (`pow` = −1): the factor entry (i, j)
+/// is scaled by. One expression for [`scale_dd`] and [`Refs`], so both give the same bits.
+fn dd(z0i: f64, z0j: f64, pow: f64) -> f64 {
+    let d = (z0i * z0j).sqrt();
+    if pow > 0.0 {
+        d
+    } else {
+        1.0 / d
+    }
 }
 
 /// Scale entry (i, j) by d_i · d_j where d = √z0 (`pow` = 1) or 1/√z0 (`pow` = −1).
 fn scale_dd(m: &mut [C64], n: usize, z0: &[f64], pow: f64) {
     for i in 0..n {
         for j in 0..n {
-            let d = (z0[i] * z0[j]).sqrt();
-            m[i * n + j] *= if pow > 0.0 { d } else { 1.0 / d };
+            m[i * n + j] *= dd(z0[i], z0[j], pow);
         }
     }
-}
-
-/// The general path: Xn = (I + sa·S)⁻¹ (I + sb·S), used by S→Z (sa=−1, sb=+1) and
-/// S→Y (sa=+1, sb=−1).
-fn from_s_general(s: &[C64], n: usize, sa: f64, sb: f64) -> Option<Vec<C64>> {
-    solve_owned(eye_plus(s, n, sa), eye_plus(s, n, sb), n)
 }
 
 /// S = (P + I)⁻¹ (P − I) for P = Zn (sign +1) or S = (I + P)⁻¹ (I − P) for P = Yn
@@ -200,7 +231,7 @@ fn to_s_general(p: &[C64], n: usize, sign: f64) -> Option<Vec<C64>> {
 /// Closed 2-port form of Xn = (I + sa·S)⁻¹ (I + sb·S) with sa = −sb (Pozar Table 4.2:
 /// Z11 = [(1+S11)(1−S22) + S12S21]/Δ, Z12 = 2S12/Δ, Δ = (1−S11)(1−S22) − S12S21, and
 /// the Y column likewise with Δ' = (1+S11)(1+S22) − S12S21).
-fn from_s_2(s: &[C64], sb: f64) -> Option<Vec<C64>> {
+fn from_s_2(s: &[C64], sb: f64) -> Option<[C64; 4]> {
     let (s11, s12, s21, s22) = (s[0], s[1], s[2], s[3]);
     let a = [one() - s11 * sb, -s12 * sb, -s21 * sb, one() - s22 * sb];
     let det = a[0] * a[3] - a[1] * a[2];
@@ -209,7 +240,7 @@ fn from_s_2(s: &[C64], sb: f64) -> Option<Vec<C64>> {
         return None;
     }
     let p = s12 * s21;
-    let out = vec![
+    let out = [
         ((one() + s11 * sb) * (one() - s22 * sb) + p) / det,
         s12 * (2.0 * sb) / det,
         s21 * (2.0 * sb) / det,
@@ -243,21 +274,137 @@ fn from_s(s: &[C64], n: usize, z0: &[f64], to_z: bool, general: bool) -> Option<
     if !check(s, n, z0) {
         return None;
     }
+    let pow = if to_z { 1.0 } else { -1.0 };
+    let scale: Vec<f64> = (0..n * n).map(|k| dd(z0[k / n], z0[k % n], pow)).collect();
+    let zero = C64::new(0.0, 0.0);
+    let mut work = if general || n > 2 {
+        vec![zero; n * n]
+    } else {
+        Vec::new()
+    };
+    let mut out = vec![zero; n * n];
+    from_s_into(s, n, &scale, to_z, general, &mut work, &mut out).then_some(out)
+}
+
+/// The body of [`from_s`] on a checked block and references, into `out` (N×N), with
+/// `work` (N×N) as the LU path's scratch and `scale` the N×N factors [`dd`] of Z = D Zn D
+/// (`to_z`) or Y = D⁻¹ Yn D⁻¹. False where [`from_s`] gives None. The one body behind
+/// every S→Z/Y path, allocating or not, so that all give the same bits.
+fn from_s_into(
+    s: &[C64],
+    n: usize,
+    scale: &[f64],
+    to_z: bool,
+    general: bool,
+    work: &mut [C64],
+    out: &mut [C64],
+) -> bool {
     let (sa, sb) = if to_z { (-1.0, 1.0) } else { (1.0, -1.0) };
-    let mut out = match (n, general) {
+    match (n, general) {
         (1, false) => {
             let den = one() + s[0] * sa;
             if den.norm() <= SINGULAR_TOL {
-                return None;
+                return false;
             }
-            vec![(one() + s[0] * sb) / den]
+            out[0] = (one() + s[0] * sb) / den;
         }
-        (2, false) => from_s_2(s, sb)?,
-        _ => from_s_general(s, n, sa, sb)?,
-    };
-    // Z = D Zn D;  Y = D⁻¹ Yn D⁻¹
-    scale_dd(&mut out, n, z0, if to_z { 1.0 } else { -1.0 });
-    all_finite(&out).then_some(out)
+        (2, false) => match from_s_2(s, sb) {
+            Some(x) => out.copy_from_slice(&x),
+            None => return false,
+        },
+        _ => {
+            eye_plus_into(s, n, sa, work);
+            eye_plus_into(s, n, sb, out);
+            if !solve_in_place(work, out, n, n) {
+                return false;
+            }
+        }
+    }
+    for (o, f) in out.iter_mut().zip(scale) {
+        *o *= *f;
+    }
+    all_finite(out)
+}
+
+/// A network's per-port reference factors, computed once rather than per block:
+/// entry (i, j) of Y = D⁻¹ Yn D⁻¹ is Yn_ij·y_ij and of Z = D Zn D is Zn_ij·z_ij.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Refs {
+    n: usize,
+    y: Vec<f64>,
+    z: Vec<f64>,
+}
+
+impl Refs {
+    /// The factors of references `z0`; None when there are none or one is not finite
+    /// and positive (then [`s_to_y`] and [`s_to_z`] give None for every block too).
+    pub fn new(z0: &[f64]) -> Option<Refs> {
+        let n = z0.len();
+        if !refs_ok(z0, n) {
+            return None;
+        }
+        let f = |pow: f64| (0..n * n).map(|k| dd(z0[k / n], z0[k % n], pow)).collect();
+        Some(Refs {
+            n,
+            y: f(-1.0),
+            z: f(1.0),
+        })
+    }
+
+    /// The Y factors of a 2-port, for [`s_to_y_2`]; None for other port counts.
+    pub fn y2(&self) -> Option<[f64; 4]> {
+        (self.n == 2).then(|| [self.y[0], self.y[1], self.y[2], self.y[3]])
+    }
+}
+
+/// [`s_to_y`] of a 2-port on the stack, with the factors of [`Refs::y2`]: the same
+/// operations, so the same bits, without the allocation and the per-block reference
+/// checks (the 2-port path of every `check`).
+pub fn s_to_y_2(s: &[C64; 4], scale: &[f64; 4]) -> Option<[C64; 4]> {
+    let mut out = [C64::new(0.0, 0.0); 4];
+    (all_finite(s) && from_s_into(s, 2, scale, false, false, &mut [], &mut out)).then_some(out)
+}
+
+/// Converts the blocks of one network into buffers it owns: [`s_to_y`] and
+/// [`s_to_z`] for a long sweep without two or three allocations per point (one per
+/// thread instead), through the same body, so with the same bits.
+#[derive(Debug, Clone)]
+pub struct BlockConverter {
+    refs: Refs,
+    work: Vec<C64>,
+    out: Vec<C64>,
+}
+
+impl BlockConverter {
+    /// A converter for references `z0`; None when [`Refs::new`] is.
+    pub fn new(z0: &[f64]) -> Option<BlockConverter> {
+        let refs = Refs::new(z0)?;
+        let nn = refs.n * refs.n;
+        Some(BlockConverter {
+            refs,
+            work: vec![C64::new(0.0, 0.0); nn],
+            out: vec![C64::new(0.0, 0.0); nn],
+        })
+    }
+
+    fn convert(&mut self, s: &[C64], to_z: bool) -> Option<&[C64]> {
+        let n = self.refs.n;
+        let scale = if to_z { &self.refs.z } else { &self.refs.y };
+        (s.len() == n * n
+            && all_finite(s)
+            && from_s_into(s, n, scale, to_z, false, &mut self.work, &mut self.out))
+        .then_some(&self.out[..])
+    }
+
+    /// [`s_to_y`] of block `s`, valid until the next call.
+    pub fn y(&mut self, s: &[C64]) -> Option<&[C64]> {
+        self.convert(s, false)
+    }
+
+    /// [`s_to_z`] of block `s`, valid until the next call.
+    pub fn z(&mut self, s: &[C64]) -> Option<&[C64]> {
+        self.convert(s, true)
+    }
 }
 
 fn to_s(m: &[C64], n: usize, z0: &[f64], from_z: bool, general: bool) -> Option<Vec<C64>> {
@@ -344,10 +491,12 @@ pub fn solve_block(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
     }
 }
 
-/// [`solve_block`] for N > 2 without allocating: A is overwritten by its LU factors
-/// and B by X. False when A is singular (A and B are then garbage).
+/// [`solve_block`] for N > 2 without allocating, for an N×M right-hand side `b`
+/// (row-major, M = `b.len()` / N): A is overwritten by its LU factors and B by X.
+/// False when A is singular (A and B are then garbage). Each column of X has the
+/// bits it has in a solve with any other M.
 pub fn solve_block_in_place(a: &mut [C64], b: &mut [C64], n: usize) -> bool {
-    n > 2 && solve_in_place(a, b, n)
+    n > 2 && b.len().is_multiple_of(n) && solve_in_place(a, b, n, b.len() / n)
 }
 
 #[cfg(test)]

@@ -19,7 +19,8 @@
 
 use rayon::prelude::*;
 
-use super::{convert, Network, PortMap, View, ViewName, C64};
+use super::convert::{self, BlockConverter};
+use super::{Network, PortMap, View, ViewName, C64};
 
 /// Why a view cannot be made from a network.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -96,17 +97,29 @@ fn check_ports(view: ViewName, list: &[usize], n: usize) -> Result<Vec<usize>, V
     Ok(idx)
 }
 
-/// The Y submatrix over `idx` (0-based) at point k, row-major.
-fn y_sub(net: &Network, k: usize, idx: &[usize]) -> Option<Vec<C64>> {
+/// The 2×2 Y submatrix over `idx` (0-based, two ports) at point k, row-major. A
+/// 2-port takes the stack path [`convert::s_to_y_2`] with its factors `y2` (from
+/// [`convert::Refs::y2`]); larger networks convert the whole block in `conv`. Both give
+/// the bits of [`Network::y_block`].
+fn y_sub2(
+    net: &Network,
+    k: usize,
+    idx: &[usize],
+    y2: Option<&[f64; 4]>,
+    conv: &mut Option<BlockConverter>,
+) -> Option<[C64; 4]> {
     let n = net.ports;
-    let y = net.y_block(k)?;
-    let mut out = Vec::with_capacity(idx.len() * idx.len());
-    for &i in idx {
-        for &j in idx {
-            out.push(y[i * n + j]);
-        }
+    let pick = |y: &[C64]| {
+        let (a, b) = (idx[0], idx[1]);
+        [y[a * n + a], y[a * n + b], y[b * n + a], y[b * n + b]]
+    };
+    if n == 2 {
+        let s: &[C64; 4] = net.s_block(k).try_into().ok()?;
+        let y = convert::s_to_y_2(s, y2?)?;
+        Some(pick(&y))
+    } else {
+        conv.as_mut()?.y(net.s_block(k)).map(pick)
     }
-    Some(out)
 }
 
 /// Differential input admittance of a 2×2 Y (floating drive), see the module doc.
@@ -124,24 +137,27 @@ pub fn differential_y(y: &[C64; 4]) -> Option<C64> {
     (yd.re.is_finite() && yd.im.is_finite()).then_some(yd)
 }
 
-fn arr4(v: &[C64]) -> [C64; 4] {
-    [v[0], v[1], v[2], v[3]]
-}
-
 /// `f` at every point of `net`, or the first point where it gives None. The points
 /// are independent and a long sweep's solves dominate a view, so they run in
 /// parallel; the failing point is found again in order, so the error is the same for
-/// any thread count.
+/// any thread count. `f` gets a block converter of its own thread (None when the
+/// references are bad, and then no block converts), so that no point allocates.
 fn per_point<T: Send>(
     net: &Network,
-    f: impl Fn(usize) -> Option<T> + Sync,
+    f: impl Fn(&mut Option<BlockConverter>, usize) -> Option<T> + Sync,
 ) -> Result<Vec<T>, usize> {
+    let init = || BlockConverter::new(&net.z0);
     let all: Option<Vec<T>> = (0..net.points())
         .into_par_iter()
         .with_min_len(1024)
-        .map(&f)
+        .map_init(init, &f)
         .collect();
-    all.ok_or_else(|| (0..net.points()).find(|&k| f(k).is_none()).unwrap_or(0))
+    all.ok_or_else(|| {
+        let mut conv = init();
+        (0..net.points())
+            .find(|&k| f(&mut conv, k).is_none())
+            .unwrap_or(0)
+    })
 }
 
 /// Reduce `net` to the view `name`, with `ports` naming which ports play which role.
@@ -163,7 +179,10 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
                     found: n,
                 });
             }
-            let y_in = per_point(net, |k| net.y_block(k).map(|y| y[0])).map_err(singular)?;
+            let y_in = per_point(net, |conv, k| {
+                conv.as_mut()?.y(net.s_block(k)).map(|y| y[0])
+            })
+            .map_err(singular)?;
             Ok(View::Driving {
                 name,
                 y_in,
@@ -190,8 +209,9 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
             } else {
                 check_ports(name, &ports.pair, n)?
             };
-            let both = per_point(net, |k| {
-                let y = arr4(&y_sub(net, k, &idx)?);
+            let y2 = convert::Refs::new(&net.z0).and_then(|r| r.y2());
+            let both = per_point(net, |conv, k| {
+                let y = y_sub2(net, k, &idx, y2.as_ref(), conv)?;
                 let yin = if name == ViewName::SingleEnded {
                     y[0]
                 } else {
@@ -217,7 +237,8 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
             }
             let w = ports.windings;
             let idx = check_ports(name, &[w[0][0], w[0][1], w[1][0], w[1][1]], n)?;
-            let z = per_point(net, |k| winding_z(net, k, &idx)).map_err(singular)?;
+            let z = per_point(net, |conv, k| winding_z(net, k, &idx, conv.as_mut()?))
+                .map_err(singular)?;
             Ok(View::Windings { name, z })
         }
     }
@@ -225,9 +246,13 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
 
 /// Z_w = Tᵀ Y₄⁻¹ T over the four winding ports (a, b, c, d), or Tᵀ Z T for a
 /// 4-port whose Y does not exist.
-fn winding_z(net: &Network, k: usize, idx: &[usize]) -> Option<[C64; 4]> {
-    // T in the local order (a, b, c, d): columns e_a − e_b and e_c − e_d, row-major 4×2
-    // padded to 4×4 with zero columns so the square solver serves.
+fn winding_z(
+    net: &Network,
+    k: usize,
+    idx: &[usize],
+    conv: &mut BlockConverter,
+) -> Option<[C64; 4]> {
+    // T in the local order (a, b, c, d): columns e_a − e_b and e_c − e_d (4×2)
     let one = C64::new(1.0, 0.0);
     let zero = C64::new(0.0, 0.0);
     let t = [[one, zero], [-one, zero], [zero, one], [zero, -one]];
@@ -242,26 +267,27 @@ fn winding_z(net: &Network, k: usize, idx: &[usize]) -> Option<[C64; 4]> {
         }
         out
     };
-    if let Some(y) = net.y_block(k) {
-        let mut y4 = local(&y);
-        let mut x = [zero; 16];
+    if let Some(y) = conv.y(net.s_block(k)) {
+        let mut y4 = local(y);
+        // X = Y₄⁻¹ T, row-major 4×2
+        let mut x = [zero; 8];
         for i in 0..4 {
-            x[i * 4] = t[i][0];
-            x[i * 4 + 1] = t[i][1];
+            x[i * 2] = t[i][0];
+            x[i * 2 + 1] = t[i][1];
         }
         if convert::solve_block_in_place(&mut y4, &mut x, 4) {
-            // Tᵀ X: X's first two columns are Y₄⁻¹ T
+            // Tᵀ X
             let mut out = [zero; 4];
             for r in 0..2 {
                 for c in 0..2 {
-                    out[r * 2 + c] = (0..4).map(|i| t[i][r] * x[i * 4 + c]).sum();
+                    out[r * 2 + c] = (0..4).map(|i| t[i][r] * x[i * 2 + c]).sum();
                 }
             }
             return Some(out);
         }
     }
     if n == 4 {
-        let z = local(&net.z_block(k)?);
+        let z = local(conv.z(net.s_block(k))?);
         // Tᵀ Z T
         let mut out = [zero; 4];
         for (r, out_r) in out.chunks_mut(2).enumerate() {

@@ -121,9 +121,11 @@ const LINES_PER_TASK: usize = 2048;
 /// ([`lex::scan_numbers`], most of the work) over the block's lines in parallel,
 /// then hands the lines in order to the same parser as [`read_reader`]. The scan
 /// is a function of a line's bytes alone, so the result is the line-by-line one,
-/// errors included. A line longer than a block (absurd in data) hands the rest of
-/// the input to the line-by-line reader.
-pub fn read_blocks<R: Read>(
+/// errors included. While the parser takes one block's lines (which it must do in
+/// order, on one thread), the next block is read, split and scanned beside it. A
+/// line longer than a block (absurd in data) hands the rest of the input to the
+/// line-by-line reader.
+pub fn read_blocks<R: Read + Send>(
     name: &str,
     mut src: R,
     size: Option<u64>,
@@ -131,56 +133,104 @@ pub fn read_blocks<R: Read>(
 ) -> Result<Touchstone, ReadError> {
     let block = block.max(1);
     let mut p = Parser::new(name, size)?;
-    let mut buf: Vec<u8> = Vec::new();
-    let mut lines: Vec<(usize, usize)> = Vec::new();
     let mut no = 0;
-    // the last block ended in CR: an LF starting the next belongs to it
-    let mut skip_lf = false;
+    let mut cur = Block::default();
+    let mut next = Block::default();
+    cur.load(&mut src, &[], false, block)
+        .map_err(|e| p.err(1, 1, ErrorKind::Io(e.to_string())))?;
     loop {
-        // a block of new bytes after the carried partial line
-        let eof = fill(&mut src, &mut buf, block)
-            .map_err(|e| p.err(no + 1, 1, ErrorKind::Io(e.to_string())))?;
+        if cur.lines.is_empty() && !cur.eof {
+            // no line end in a whole block: go on line by line from here
+            let carried = cur.buf[cur.rest..].to_vec();
+            let rest = io::Cursor::new(carried).chain(src);
+            let reader = BufReader::with_capacity(1 << 18, rest);
+            let last = p.run(LineReader::resume(reader, no, cur.skip_lf))?;
+            return p.finish(last);
+        }
+        if cur.eof {
+            cur.feed(&mut p, &mut no)?;
+            return p.finish(no);
+        }
+        let (fed, loaded) = rayon::join(
+            || cur.feed(&mut p, &mut no),
+            || next.load(&mut src, &cur.buf[cur.rest..], cur.skip_lf, block),
+        );
+        fed?;
+        loaded.map_err(|e| p.err(no + 1, 1, ErrorKind::Io(e.to_string())))?;
+        std::mem::swap(&mut cur, &mut next);
+    }
+}
+
+/// One block of [`read_blocks`]: its bytes, split into lines and scanned.
+#[derive(Default)]
+struct Block {
+    buf: Vec<u8>,
+    /// (start, end) of each whole line in `buf`, terminator excluded
+    lines: Vec<(usize, usize)>,
+    /// the scans of `lines`, [`LINES_PER_TASK`] lines each
+    scans: Vec<Scanned>,
+    /// where the bytes after the last whole line start (carried to the next block)
+    rest: usize,
+    /// the input ended in this block (its last line, unterminated, is in `lines`)
+    eof: bool,
+    /// the block ended in CR: an LF starting the next belongs to it
+    skip_lf: bool,
+}
+
+impl Block {
+    /// `carry` (the previous block's unfinished line) and up to `block` new bytes of
+    /// `src`; `skip_lf`: the previous block ended in CR.
+    fn load<R: Read>(
+        &mut self,
+        src: &mut R,
+        carry: &[u8],
+        skip_lf: bool,
+        block: usize,
+    ) -> io::Result<()> {
+        self.buf.clear();
+        self.buf.extend_from_slice(carry);
+        self.eof = fill(src, &mut self.buf, block)?;
+        let buf = &self.buf;
         let mut i = 0;
         if skip_lf && buf.first() == Some(&b'\n') {
             i = 1;
         }
-        skip_lf = false;
-        lines.clear();
+        self.skip_lf = false;
+        self.lines.clear();
         while let Some(q) = memchr::memchr2(b'\n', b'\r', &buf[i..]) {
             let end = i + q;
-            lines.push((i, end));
+            self.lines.push((i, end));
             i = end + 1;
             if buf[end] == b'\r' {
                 match buf.get(i) {
                     Some(b'\n') => i += 1,
-                    None => skip_lf = true,
+                    None => self.skip_lf = true,
                     _ => {}
                 }
             }
         }
-        if eof && i < buf.len() {
-            lines.push((i, buf.len()));
+        if self.eof && i < buf.len() {
+            self.lines.push((i, buf.len()));
             i = buf.len();
         }
-        if lines.is_empty() && !eof {
-            // no line end in a whole block: go on line by line from here
-            buf.drain(..i);
-            let rest = io::Cursor::new(std::mem::take(&mut buf)).chain(src);
-            let reader = BufReader::with_capacity(1 << 18, rest);
-            let last = p.run(LineReader::resume(reader, no, skip_lf))?;
-            return p.finish(last);
-        }
-        let scans: Vec<Scanned> = lines
+        self.rest = i;
+        self.scans = self
+            .lines
             .par_chunks(LINES_PER_TASK)
-            .map(|chunk| Scanned::of(&buf, chunk))
+            .map(|chunk| Scanned::of(buf, chunk))
             .collect();
-        for (chunk, scanned) in lines.chunks(LINES_PER_TASK).zip(&scans) {
+        Ok(())
+    }
+
+    /// Hand the block's lines to the parser in order; `no` counts the lines.
+    fn feed(&self, p: &mut Parser, no: &mut usize) -> Result<(), ReadError> {
+        for (chunk, scanned) in self.lines.chunks(LINES_PER_TASK).zip(&self.scans) {
             for (&(s, e), pre) in chunk.iter().zip(&scanned.lines) {
-                no += 1;
-                let raw = &buf[s..e];
+                *no += 1;
+                let raw = &self.buf[s..e];
                 if raw.len() > lex::MAX_LINE {
                     return Err(p.err(
-                        no,
+                        *no,
                         1,
                         ErrorKind::LineTooLong {
                             limit: lex::MAX_LINE,
@@ -190,13 +240,10 @@ pub fn read_blocks<R: Read>(
                 let pre = pre
                     .as_ref()
                     .map(|(end, r)| (*end, &scanned.vals[r.clone()]));
-                p.feed(no, raw, pre)?;
+                p.feed(*no, raw, pre)?;
             }
         }
-        if eof {
-            return p.finish(no);
-        }
-        buf.drain(..i);
+        Ok(())
     }
 }
 
@@ -407,6 +454,8 @@ struct Parser<'a> {
     rec_len: usize,
     map: Vec<usize>,
     mirror: Vec<usize>,
+    /// `map` is the identity (a full matrix in row-major order, no mirrored cells)
+    in_order: bool,
     z0: Vec<f64>,
     /// v1 normalising resistances (per port), empty for v2
     norm: Vec<f64>,
@@ -504,6 +553,7 @@ impl<'a> Parser<'a> {
             rec_len: 0,
             map: Vec::new(),
             mirror: Vec::new(),
+            in_order: false,
             z0: Vec::new(),
             norm: Vec::new(),
             rec: Vec::new(),
@@ -1428,6 +1478,8 @@ impl<'a> Parser<'a> {
                 });
             }
         }
+        self.in_order =
+            self.map.len() == n * n && self.map.iter().enumerate().all(|(k, &t)| k == t);
         Ok(())
     }
 
@@ -1761,31 +1813,56 @@ impl<'a> Parser<'a> {
         };
         let (format, param, mult) = (opt.format, opt.param, opt.unit.multiplier());
         let f_raw = self.rec[0];
-        self.block.clear();
-        self.block.resize(n * n, C64::new(0.0, 0.0));
-        for (p, (&t, &m)) in self.map.iter().zip(&self.mirror).enumerate() {
-            let (a, b) = (self.rec[1 + 2 * p], self.rec[2 + 2 * p]);
-            let c = pair(format, a, b);
-            if !c.is_finite() {
-                return Err(self.err(
-                    self.rec_line,
-                    1,
-                    ErrorKind::NonFinite(format!("{a} {b} (value pair {} of the record)", p + 1)),
-                ));
+        let line = self.rec_line;
+        let pairs = self.rec[1..].chunks_exact(2);
+        let cells = self.map.iter().zip(&self.mirror);
+        let zero = C64::new(0.0, 0.0);
+        // S data (nearly every file) go straight into place in the result; other
+        // parameters through `block` and a conversion
+        let direct = param == Param::S;
+        let base = self.s.len();
+        let out = if direct {
+            self.s.resize(base + n * n, zero);
+            &mut self.s[base..]
+        } else {
+            self.block.clear();
+            self.block.resize(n * n, zero);
+            &mut self.block[..]
+        };
+        let mut bad = None;
+        if direct && format == Format::RI && self.in_order && self.rec.iter().all(|v| v.is_finite())
+        {
+            // the common case, a pair per cell in order (the values are finite, as the
+            // lexer gives nothing else, but that is checked, and cheap)
+            for (o, v) in out.iter_mut().zip(pairs) {
+                *o = C64::new(v[0], v[1]);
             }
-            self.block[t] = c;
-            if m != NONE {
-                self.block[m] = c;
+        } else {
+            for (p, (v, (&t, &m))) in pairs.zip(cells).enumerate() {
+                let c = pair(format, v[0], v[1]);
+                if !c.is_finite() {
+                    bad = Some((p, v[0], v[1]));
+                    break;
+                }
+                out[t] = c;
+                if m != NONE {
+                    out[m] = c;
+                }
             }
         }
-        let line = self.rec_line;
-        if param != Param::S {
+        if let Some((p, a, b)) = bad {
+            self.s.truncate(base);
+            return Err(self.err(
+                line,
+                1,
+                ErrorKind::NonFinite(format!("{a} {b} (value pair {} of the record)", p + 1)),
+            ));
+        }
+        if !direct {
             let s = self
                 .block_to_s(param, n)
                 .ok_or_else(|| self.err(line, 1, ErrorKind::Singular(param.letter())))?;
             self.s.extend_from_slice(&s);
-        } else {
-            self.s.extend_from_slice(&self.block);
         }
         self.freq.push(f_raw * mult);
         self.prev_f = Some((f_raw, line));
