@@ -244,8 +244,11 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
     }
 }
 
-/// Z_w = Tᵀ Y₄⁻¹ T over the four winding ports (a, b, c, d), or Tᵀ Z T for a
-/// 4-port whose Y does not exist.
+/// Z_w = Tᵀ Y₄⁻¹ T over the four winding ports (a, b, c, d), the other ports grounded.
+/// For a 4-port Y₄⁻¹ is Z itself, so Tᵀ Z T is taken directly: one solve per point
+/// instead of two (S → Y, then Y₄ X = T), and defined wherever Y₄⁻¹ is (Z needs I − S
+/// invertible only; the Y route also needed I + S). Y is the fallback for a 4-port
+/// whose Z does not exist, where the result is singular anyway.
 fn winding_z(
     net: &Network,
     k: usize,
@@ -267,6 +270,23 @@ fn winding_z(
         }
         out
     };
+    // Tᵀ Z T: winding r's ports (2r, 2r + 1) in the local order, so each entry is
+    // z_pq − z_pq' − z_p'q + z_p'q'
+    let tzt = |z: &[C64; 16]| {
+        let mut out = [zero; 4];
+        for r in 0..2 {
+            for c in 0..2 {
+                let (p, p1, q, q1) = (2 * r, 2 * r + 1, 2 * c, 2 * c + 1);
+                out[r * 2 + c] = z[p * 4 + q] - z[p * 4 + q1] - z[p1 * 4 + q] + z[p1 * 4 + q1];
+            }
+        }
+        out
+    };
+    if n == 4 {
+        if let Some(z) = conv.z(net.s_block(k)) {
+            return Some(tzt(&local(z)));
+        }
+    }
     if let Some(y) = conv.y(net.s_block(k)) {
         let mut y4 = local(y);
         // X = Y₄⁻¹ T, row-major 4×2
@@ -285,23 +305,6 @@ fn winding_z(
             }
             return Some(out);
         }
-    }
-    if n == 4 {
-        let z = local(conv.z(net.s_block(k))?);
-        // Tᵀ Z T
-        let mut out = [zero; 4];
-        for (r, out_r) in out.chunks_mut(2).enumerate() {
-            for (c, o) in out_r.iter_mut().enumerate() {
-                let mut acc = zero;
-                for i in 0..4 {
-                    for j in 0..4 {
-                        acc += t[i][r] * z[i * 4 + j] * t[j][c];
-                    }
-                }
-                *o = acc;
-            }
-        }
-        return Some(out);
     }
     None
 }
