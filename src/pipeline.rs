@@ -7,8 +7,10 @@
 //! library. The output is the same, byte for byte, for any thread count: parts are
 //! judged independently and collected in path order.
 
+use std::collections::VecDeque;
 use std::panic::{catch_unwind, AssertUnwindSafe};
 use std::path::{Path, PathBuf};
+use std::sync::mpsc;
 use std::time::{Instant, SystemTime, UNIX_EPOCH};
 
 use rayon::prelude::*;
@@ -136,12 +138,14 @@ struct Prepared {
     notes: Vec<String>,
     pool: Option<rayon::ThreadPool>,
     strict: bool,
+    /// take each part's content hash even without a cache (a baseline is recorded)
+    hash: bool,
 }
 
 impl Prepared {
     /// Load the rules, walk the library, take the shard's share, open the cache and
-    /// build the thread pool `opts.jobs` asks for.
-    fn new(opts: &RunOptions) -> Result<Prepared, RunError> {
+    /// build the thread pool `opts.jobs` asks for. `hash`: see [`Prepared::hash`].
+    fn new(opts: &RunOptions, hash: bool) -> Result<Prepared, RunError> {
         if opts.rules.is_empty() {
             return Err(RunError::NoRules);
         }
@@ -192,7 +196,16 @@ impl Prepared {
             notes: walk.notes,
             pool,
             strict: opts.strict,
+            hash,
         })
+    }
+
+    /// Run `f` on this thread with a scope whose spawned jobs run on the run's pool.
+    fn in_place_scope<'scope, T>(&self, f: impl FnOnce(&rayon::Scope<'scope>) -> T) -> T {
+        match &self.pool {
+            Some(pool) => pool.in_place_scope(f),
+            None => rayon::in_place_scope(f),
+        }
     }
 
     /// Run `f` on the run's thread pool.
@@ -206,7 +219,7 @@ impl Prepared {
     /// Judge one part through the cache; the notes are the cache's.
     fn judge(&self, part: &PartFile, progress: &dyn Progress) -> (Judged, Vec<String>) {
         let mut notes = Vec::new();
-        let j = baseline::cache::judge(self.cache.as_ref(), part, &mut notes, |bytes| {
+        let j = baseline::cache::judge(self.cache.as_ref(), part, &mut notes, self.hash, |bytes| {
             judge_part_guarded(part, bytes, &self.rules, self.strict)
         });
         progress.part_done(&part.rel);
@@ -218,7 +231,8 @@ impl Prepared {
 /// (in parallel on `opts.jobs` threads, through the content-hash cache unless it is
 /// off). `opts.baseline` is not used here.
 pub fn judge_library(opts: &RunOptions, progress: &dyn Progress) -> Result<Judging, RunError> {
-    let prep = Prepared::new(opts)?;
+    // the judged parts may be recorded as a baseline, which keeps their hashes
+    let prep = Prepared::new(opts, true)?;
     progress.begin(prep.parts.len());
     let done: Vec<(Judged, Vec<String>)> = prep.install(|| {
         prep.parts
@@ -239,27 +253,41 @@ pub fn judge_library(opts: &RunOptions, progress: &dyn Progress) -> Result<Judgi
     })
 }
 
+/// Draws parts for a [`PartSink`] on the worker threads, away from the run's order.
+/// It is its own value, handed out by [`PartSink::begin`], so that the sink can take
+/// drawn parts on the main thread while the workers draw the next ones.
+pub trait Draw: Sync {
+    /// What is made of one part.
+    type Drawn: Send;
+    /// Draw part `index` (its place in the run's order).
+    fn draw(&self, part: &PartReport, index: usize) -> Self::Drawn;
+}
+
 /// Where a run's part reports go as they are made, in path order: the report writers
 /// of `--report DIR` ([`crate::report::ReportStream`]), or nothing.
-pub trait PartSink: Sync {
-    /// What the sink makes of one part away from the run's order (in parallel).
-    type Drawn: Send;
+pub trait PartSink {
+    /// The sink's drawing side.
+    type Drawer: Draw;
     /// Told the run's header (no parts, no counts yet) and every part's path, in the
-    /// order the parts will come, before the first part.
-    fn begin(&mut self, head: &RunReport, paths: &[&str]);
-    /// Draw part `index` (its place in the run's order); called on worker threads.
-    fn draw(&self, part: &PartReport, index: usize) -> Self::Drawn;
-    /// Take the drawn part, in the run's order.
-    fn take(&mut self, part: &PartReport, drawn: Self::Drawn);
+    /// order the parts will come, before the first part; gives the drawer.
+    fn begin(&mut self, head: &RunReport, paths: &[&str]) -> Self::Drawer;
+    /// Take the drawn part, in the run's order (on the main thread).
+    fn take(&mut self, part: &PartReport, drawn: <Self::Drawer as Draw>::Drawn);
 }
 
 /// A [`PartSink`] that keeps nothing.
 pub struct NoSink;
 
-impl PartSink for NoSink {
+impl Draw for NoSink {
     type Drawn = ();
-    fn begin(&mut self, _: &RunReport, _: &[&str]) {}
     fn draw(&self, _: &PartReport, _: usize) {}
+}
+
+impl PartSink for NoSink {
+    type Drawer = NoSink;
+    fn begin(&mut self, _: &RunReport, _: &[&str]) -> NoSink {
+        NoSink
+    }
     fn take(&mut self, _: &PartReport, _: ()) {}
 }
 
@@ -284,9 +312,15 @@ pub fn is_notable(p: &PartReport) -> bool {
         || p.checks.iter().any(|c| c.status != CheckStatus::Pass)
 }
 
-/// Parts judged together before their reports are handed on: enough to keep every
-/// core busy, few enough that only a handful of parts are ever held whole.
+/// Parts judged together (one parallel job) before their reports are handed on:
+/// enough to keep every core busy, few enough that only a handful of parts are ever
+/// held whole.
 const CHUNK: usize = 64;
+
+/// Chunks judged ahead of the one being taken: the workers go on with the next
+/// chunks while the main thread takes the last one, so neither waits for the other;
+/// at most `AHEAD + 1` chunks are held.
+const AHEAD: usize = 2;
 
 /// One entry of the run, in path order: a file to judge or a baseline part that is
 /// no longer in the library.
@@ -311,7 +345,8 @@ pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, R
 }
 
 /// Run a check, handing each part's report to `sink` in path order as soon as its
-/// chunk is judged (and compared with the baseline), and keeping in the returned
+/// chunk is judged (and compared with the baseline) while the next chunks are judged
+/// on the workers, and keeping in the returned
 /// report the parts `keep` says. The summary counts every part.
 pub fn run_into<S: PartSink>(
     opts: &RunOptions,
@@ -323,7 +358,8 @@ pub fn run_into<S: PartSink>(
     let clock = Instant::now();
     // a baseline that cannot be used is found before any part is judged
     let base = opts.baseline.as_deref().map(Baseline::load).transpose()?;
-    let prep = Prepared::new(opts)?;
+    // a check keeps no hash (only a recorded baseline does); the cache takes its own
+    let prep = Prepared::new(opts, false)?;
     let infos = prep.rules.infos();
     let rules_changed = match &base {
         Some(b) => baseline::rules_changed(&infos, b),
@@ -358,60 +394,82 @@ pub fn run_into<S: PartSink>(
         run: RunInfo::default(),
     };
     let paths: Vec<&str> = entries.iter().map(Entry::path).collect();
-    sink.begin(&report, &paths);
+    let drawer = sink.begin(&report, &paths);
     drop(paths);
     progress.begin(prep.parts.len());
 
+    // one entry, judged, compared with the baseline and drawn (on a worker)
+    let judge_entry = |index: usize, entry: &Entry| -> Done<<S::Drawer as Draw>::Drawn> {
+        let (part, notes, was_cached) = match entry {
+            Entry::File(file) => {
+                let (j, notes) = prep.judge(file, progress);
+                let was_cached = j.cached;
+                let part = match &base {
+                    None => j.report,
+                    Some(b) => baseline::apply_one(j, b, opts.strict, |m, before| {
+                        compare_drift(&prep.rules, m, before)
+                    }),
+                };
+                (part, notes, Some(was_cached))
+            }
+            // a missing part's report is small: no figures, no plot
+            Entry::Missing(r) => ((**r).clone(), Vec::new(), None),
+        };
+        let drawn = drawer.draw(&part, index);
+        (part, drawn, notes, was_cached)
+    };
+    let chunks: Vec<&[Entry]> = entries.chunks(CHUNK).collect();
+
     let mut notes = prep.notes.clone();
     let (mut computed, mut cached) = (0, 0);
-    for (c, chunk) in entries.chunks(CHUNK).enumerate() {
-        let sink_view: &S = &*sink;
-        let done: Vec<Done<S::Drawn>> = prep.install(|| {
-            chunk
-                .par_iter()
-                .enumerate()
-                .map(|(i, entry)| {
-                    let (part, notes, was_cached) = match entry {
-                        Entry::File(file) => {
-                            let (j, notes) = prep.judge(file, progress);
-                            let was_cached = j.cached;
-                            let part = match &base {
-                                None => j.report,
-                                Some(b) => baseline::apply_one(j, b, opts.strict, |m, before| {
-                                    compare_drift(&prep.rules, m, before)
-                                }),
-                            };
-                            (part, notes, Some(was_cached))
-                        }
-                        // a missing part's report is small: no figures, no plot
-                        Entry::Missing(r) => ((**r).clone(), Vec::new(), None),
-                    };
-                    let drawn = sink_view.draw(&part, c * CHUNK + i);
-                    (part, drawn, notes, was_cached)
-                })
-                .collect()
-        });
-        for (part, drawn, n, was_cached) in done {
-            notes.extend(n);
-            match was_cached {
-                Some(true) => cached += 1,
-                Some(false) => computed += 1,
-                None => {}
+    prep.in_place_scope(|scope| {
+        // chunk c judged in parallel on the pool; its parts come back in order
+        let launch = |c: usize| {
+            let (tx, rx) = mpsc::sync_channel(1);
+            let (chunk, judge_entry) = (chunks[c], &judge_entry);
+            scope.spawn(move |_| {
+                let done: Vec<_> = chunk
+                    .par_iter()
+                    .enumerate()
+                    .map(|(i, entry)| judge_entry(c * CHUNK + i, entry))
+                    .collect();
+                // the receiver is gone only when the main thread is unwinding
+                let _ = tx.send(done);
+            });
+            rx
+        };
+        let mut pending: VecDeque<mpsc::Receiver<_>> =
+            (0..chunks.len().min(AHEAD)).map(launch).collect();
+        let mut next = pending.len();
+        while let Some(rx) = pending.pop_front() {
+            if next < chunks.len() {
+                pending.push_back(launch(next));
+                next += 1;
             }
-            count(&mut report.summary, &part);
-            report.passed &= part_passes(&part);
-            sink.take(&part, drawn);
-            match keep {
-                Keep::All => report.parts.push(part),
-                Keep::Notable if is_notable(&part) => report.parts.push(PartReport {
-                    figures: Default::default(),
-                    plot: None,
-                    ..part
-                }),
-                Keep::Notable => {}
+            // a chunk that never comes panicked on a worker: the scope raises it
+            let Ok(done) = rx.recv() else { break };
+            for (part, drawn, n, was_cached) in done {
+                notes.extend(n);
+                match was_cached {
+                    Some(true) => cached += 1,
+                    Some(false) => computed += 1,
+                    None => {}
+                }
+                count(&mut report.summary, &part);
+                report.passed &= part_passes(&part);
+                sink.take(&part, drawn);
+                match keep {
+                    Keep::All => report.parts.push(part),
+                    Keep::Notable if is_notable(&part) => report.parts.push(PartReport {
+                        figures: Default::default(),
+                        plot: None,
+                        ..part
+                    }),
+                    Keep::Notable => {}
+                }
             }
         }
-    }
+    });
     report.run = RunInfo {
         started: rfc3339_utc(started),
         seconds: clock.elapsed().as_secs_f64(),

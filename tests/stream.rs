@@ -117,3 +117,97 @@ fn colliding_element_ids_stream_the_same() {
     .unwrap();
     compare_runs(&opts(&lib, &rules));
 }
+
+/// A library of `n` one-ports (series 2 nH + 1 Ω, Pozar §4.3 for S from Z) and its
+/// rules file, in `tmp`.
+fn many_parts(tmp: &Path, n: usize) -> (PathBuf, PathBuf) {
+    let lib = tmp.join("lib");
+    std::fs::create_dir_all(&lib).unwrap();
+    let mut text = String::from("# GHz S RI R 50\n");
+    for i in 1..=20 {
+        let f = i as f64 * 1e9;
+        let z = num_complex::Complex64::new(1.0, 2.0 * std::f64::consts::PI * f * 2e-9);
+        let s = (z - 50.0) / (z + 50.0);
+        text.push_str(&format!("{} {} {}\n", i, s.re, s.im));
+    }
+    for k in 0..n {
+        std::fs::write(lib.join(format!("coil-{k:04}.s1p")), &text).unwrap();
+    }
+    let rules = tmp.join("rules.yaml");
+    std::fs::write(
+        &rules,
+        "suite: many\nparts:\n  - select: [\"*.s1p\"]\n    kind: inductor\n    checks:\n      l-set: l(1GHz) >= 1nH\n",
+    )
+    .unwrap();
+    (lib, rules)
+}
+
+/// Records what it is handed: the pipeline judges chunks ahead on the workers while
+/// the main thread takes, and must still hand every part over once, in path order.
+struct Recorder {
+    taken: Vec<(usize, String)>,
+    panic_at: Option<usize>,
+}
+
+struct IndexDrawer;
+
+impl pipeline::Draw for IndexDrawer {
+    type Drawn = usize;
+    fn draw(&self, _: &lcgate::verdict::PartReport, index: usize) -> usize {
+        index
+    }
+}
+
+impl pipeline::PartSink for Recorder {
+    type Drawer = IndexDrawer;
+    fn begin(&mut self, _: &lcgate::verdict::RunReport, _: &[&str]) -> IndexDrawer {
+        IndexDrawer
+    }
+    fn take(&mut self, part: &lcgate::verdict::PartReport, index: usize) {
+        if self.panic_at == Some(self.taken.len()) {
+            panic!("the sink fails on purpose");
+        }
+        self.taken.push((index, part.path.clone()));
+    }
+}
+
+#[test]
+fn parts_judged_ahead_are_taken_once_in_path_order() {
+    let tmp = tempfile::tempdir().unwrap();
+    // several of the pipeline's chunks (64 parts) and a partial last one
+    let n = 300;
+    let (lib, rules) = many_parts(tmp.path(), n);
+    for jobs in [1, 2, 3] {
+        let mut o = opts(&lib, &rules);
+        o.jobs = Some(jobs);
+        let mut sink = Recorder {
+            taken: Vec::new(),
+            panic_at: None,
+        };
+        let out = pipeline::run_into(&o, &NoProgress, &mut sink, Keep::Notable).expect("run");
+        assert_eq!(out.report.summary.parts, n);
+        let want: Vec<(usize, String)> = (0..n).map(|k| (k, format!("coil-{k:04}.s1p"))).collect();
+        assert_eq!(sink.taken, want, "jobs {jobs}");
+    }
+    // and the streamed reports of such a run are the whole run's
+    let mut o = opts(&lib, &rules);
+    o.jobs = Some(2);
+    compare_runs(&o);
+}
+
+#[test]
+fn a_sink_that_panics_stops_the_run_without_hanging() {
+    let tmp = tempfile::tempdir().unwrap();
+    let (lib, rules) = many_parts(tmp.path(), 200);
+    let mut o = opts(&lib, &rules);
+    o.jobs = Some(2);
+    let mut sink = Recorder {
+        taken: Vec::new(),
+        panic_at: Some(70),
+    };
+    let r = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+        pipeline::run_into(&o, &NoProgress, &mut sink, Keep::Notable)
+    }));
+    assert!(r.is_err(), "the sink's panic reaches the caller");
+    assert_eq!(sink.taken.len(), 70);
+}

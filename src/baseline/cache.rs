@@ -121,6 +121,20 @@ fn hash_part(path: &Path) -> io::Result<(blake3::Hash, Option<Vec<u8>>)> {
     }
 }
 
+/// A part's bytes when it is smaller than [`SINGLE_READ_MAX`], unhashed (for a run
+/// that keeps no cache and compares with no baseline).
+fn read_if_small(path: &Path) -> io::Result<Option<Vec<u8>>> {
+    let mut f = File::open(path)?;
+    match f.metadata()?.len() {
+        n if n < SINGLE_READ_MAX => {
+            let mut bytes = Vec::with_capacity(n as usize + 1);
+            io::Read::read_to_end(&mut f, &mut bytes)?;
+            Ok(Some(bytes))
+        }
+        _ => Ok(None),
+    }
+}
+
 impl Cache {
     /// The cache in `dir` for a run with these rules and `--strict` setting. Nothing is
     /// created until the first entry is stored.
@@ -261,24 +275,27 @@ impl Cache {
         notes: &mut Vec<String>,
         compute: impl FnOnce(Option<&[u8]>) -> (PartReport, Vec<Measure>),
     ) -> Judged {
-        judge(Some(self), part, notes, compute)
+        judge(Some(self), part, notes, true, compute)
     }
 }
 
-/// Judge `part` with or without a cache (see [`Cache::judge`]); the content hash is
-/// taken either way, for the baseline.
+/// Judge `part` with or without a cache (see [`Cache::judge`]). The content hash is
+/// taken when there is a cache or `hash` asks for it (a baseline is recorded);
+/// otherwise the part is only read, and [`Judged::hash`] is None.
 pub fn judge(
     cache: Option<&Cache>,
     part: &PartFile,
     notes: &mut Vec<String>,
+    hash: bool,
     compute: impl FnOnce(Option<&[u8]>) -> (PartReport, Vec<Measure>),
 ) -> Judged {
     // a file that cannot be hashed cannot be read either: the reader says why
     let (content, bytes) = match &part.error {
-        None => match hash_part(&part.path) {
+        None if cache.is_some() || hash => match hash_part(&part.path) {
             Ok((h, bytes)) => (Some(h), bytes),
             Err(_) => (None, None),
         },
+        None => (None, read_if_small(&part.path).unwrap_or(None)),
         Some(_) => (None, None),
     };
     let keyed = match (cache, &content) {
@@ -382,7 +399,7 @@ mod tests {
     fn run(cache: Option<&Cache>, part: &PartFile, q: f64) -> (Judged, Vec<String>, usize) {
         let mut notes = Vec::new();
         let mut calls = 0;
-        let j = judge(cache, part, &mut notes, |bytes| {
+        let j = judge(cache, part, &mut notes, true, |bytes| {
             // the bytes handed over are the file's
             if let Some(b) = bytes {
                 assert_eq!(b, fs::read(&part.path).unwrap());
@@ -509,11 +526,33 @@ mod tests {
         assert_eq!(h, hash_file(&part.path).unwrap());
         assert_eq!(bytes.unwrap(), fs::read(&part.path).unwrap());
         let mut handed = None;
-        judge(None, &part, &mut Vec::new(), |b| {
+        judge(None, &part, &mut Vec::new(), true, |b| {
             handed = b.map(<[u8]>::to_vec);
             (report(&part.rel, 1.0), vec![])
         });
         assert_eq!(handed.unwrap(), fs::read(&part.path).unwrap());
+    }
+
+    #[test]
+    fn without_cache_or_baseline_a_part_is_only_read() {
+        let lib = Lib::new();
+        let part = lib.part();
+        let mut handed = None;
+        let j = judge(None, &part, &mut Vec::new(), false, |b| {
+            handed = b.map(<[u8]>::to_vec);
+            (report(&part.rel, 1.0), vec![])
+        });
+        assert_eq!(j.hash, None);
+        assert_eq!(handed.unwrap(), fs::read(&part.path).unwrap());
+        // a cache needs the hash for its key, whatever `hash` says
+        let c = lib.cache("h");
+        let j = judge(Some(&c), &part, &mut Vec::new(), false, |_| {
+            (report(&part.rel, 1.0), vec![])
+        });
+        assert_eq!(
+            j.hash.as_deref(),
+            Some(hash_file(&part.path).unwrap().to_hex().as_str())
+        );
     }
 
     #[test]

@@ -74,7 +74,8 @@ pub fn add_measure(
 pub struct Judged {
     /// the part's report before any baseline comparison
     pub report: PartReport,
-    /// blake3 of the file's bytes (hex); None when the file could not be read
+    /// blake3 of the file's bytes (hex); None when the file could not be read, or was
+    /// not hashed (a check without a cache, `cache::judge`)
     pub hash: Option<String>,
     /// drift quantities measured now, in rules-file then `drift` order
     pub measures: Vec<Measure>,

@@ -20,7 +20,7 @@ use rayon::prelude::*;
 use super::html::{self, PagePart, PartIds};
 use super::junit::{Body, Plan};
 use super::{atomic_write, atomic_write_stream, head_of, json, markdown, REPORT_FILES};
-use crate::pipeline::PartSink;
+use crate::pipeline::{Draw, PartSink};
 use crate::verdict::{PartReport, RunReport};
 
 /// A body waiting in an unnamed file in the report folder.
@@ -54,10 +54,41 @@ pub struct Drawn {
     junit: Vec<(usize, Body)>,
 }
 
+/// Draws a run's parts for the four reports, on the worker threads (see the module
+/// doc); made by [`ReportStream`]'s `begin`.
+pub struct PartDrawer {
+    strict: bool,
+    plan: Plan,
+    /// the element ids that are not their path's plain slug (paths that collide)
+    renamed: BTreeMap<String, String>,
+}
+
+impl PartDrawer {
+    fn draw_part(&self, p: &PartReport, index: usize) -> Drawn {
+        let mut d = Drawn::default();
+        // drawing into memory cannot fail
+        let _ = json::part_fragment(p, index == 0, &mut d.json);
+        d.page = Some(html::page_part(
+            self.strict,
+            p,
+            &id_for(&self.renamed, &p.path),
+        ));
+        d.junit = self.plan.part_bodies(p, self.strict);
+        d
+    }
+}
+
+impl Draw for PartDrawer {
+    type Drawn = Drawn;
+
+    fn draw(&self, part: &PartReport, index: usize) -> Drawn {
+        self.draw_part(part, index)
+    }
+}
+
 /// The four reports of a run, written as its parts come (see the module doc).
 pub struct ReportStream {
     dir: PathBuf,
-    strict: bool,
     plan: Plan,
     /// the element ids that are not their path's plain slug (paths that collide)
     renamed: BTreeMap<String, String>,
@@ -83,7 +114,6 @@ impl ReportStream {
             |report: &str| Spill::new(dir).map_err(|e| super::with_path(&dir.join(report), e));
         Ok(ReportStream {
             dir: dir.to_path_buf(),
-            strict: false,
             plan: Plan::default(),
             renamed: BTreeMap::new(),
             json: spill(REPORT_FILES[0])?,
@@ -97,8 +127,8 @@ impl ReportStream {
         })
     }
 
-    fn start(&mut self, head: &RunReport, plan: Plan, paths: &[&str]) {
-        self.strict = head.strict;
+    /// Make the slots for `plan` and the element ids of `paths`; give the drawer.
+    fn start(&mut self, head: &RunReport, plan: Plan, paths: &[&str]) -> PartDrawer {
         let mut ids = PartIds::default();
         for p in paths {
             let id = ids.next(p);
@@ -119,29 +149,18 @@ impl ReportStream {
                 }
             }
         }
-        self.plan = plan;
+        self.plan = plan.clone();
+        PartDrawer {
+            strict: head.strict,
+            plan,
+            renamed: self.renamed.clone(),
+        }
     }
 
     fn fail(&mut self, e: io::Error) {
         if self.error.is_none() {
             self.error = Some(super::with_path(&self.dir, e));
         }
-    }
-
-    fn id_of(&self, path: &str) -> String {
-        id_for(&self.renamed, path)
-    }
-
-    fn draw_part(&self, p: &PartReport, index: usize) -> Drawn {
-        if self.error.is_some() {
-            return Drawn::default();
-        }
-        let mut d = Drawn::default();
-        // drawing into memory cannot fail
-        let _ = json::part_fragment(p, index == 0, &mut d.json);
-        d.page = Some(html::page_part(self.strict, p, &self.id_of(&p.path)));
-        d.junit = self.plan.part_bodies(p, self.strict);
-        d
     }
 
     fn take_part(&mut self, d: Drawn) {
@@ -210,15 +229,11 @@ impl ReportStream {
 }
 
 impl PartSink for ReportStream {
-    type Drawn = Drawn;
+    type Drawer = PartDrawer;
 
-    fn begin(&mut self, head: &RunReport, paths: &[&str]) {
+    fn begin(&mut self, head: &RunReport, paths: &[&str]) -> PartDrawer {
         // the run's checks all come from the rules files of its head
-        self.start(head, Plan::of(head), paths);
-    }
-
-    fn draw(&self, part: &PartReport, index: usize) -> Drawn {
-        self.draw_part(part, index)
+        self.start(head, Plan::of(head), paths)
     }
 
     fn take(&mut self, _: &PartReport, drawn: Drawn) {
@@ -242,12 +257,12 @@ pub(crate) fn write_report(dir: &Path, r: &RunReport) -> io::Result<()> {
     let mut s = ReportStream::new(dir)?;
     let paths: Vec<&str> = r.parts.iter().map(|p| p.path.as_str()).collect();
     // a joined report may hold checks of rules files its header does not list
-    s.start(r, Plan::of(r), &paths);
+    let drawer = s.start(r, Plan::of(r), &paths);
     for (c, chunk) in r.parts.chunks(CHUNK).enumerate() {
         let drawn: Vec<Drawn> = chunk
             .par_iter()
             .enumerate()
-            .map(|(i, p)| s.draw_part(p, c * CHUNK + i))
+            .map(|(i, p)| drawer.draw_part(p, c * CHUNK + i))
             .collect();
         for d in drawn {
             s.take_part(d);
