@@ -315,7 +315,7 @@ pub fn is_notable(p: &PartReport) -> bool {
 /// Parts judged together (one parallel job) before their reports are handed on:
 /// enough to keep every core busy, few enough that only a handful of parts are ever
 /// held whole.
-const CHUNK: usize = 64;
+const CHUNK: usize = 32;
 
 /// Chunks judged ahead of the one being taken: the workers go on with the next
 /// chunks while the main thread takes the last one, so neither waits for the other;

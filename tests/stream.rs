@@ -174,7 +174,7 @@ impl pipeline::PartSink for Recorder {
 #[test]
 fn parts_judged_ahead_are_taken_once_in_path_order() {
     let tmp = tempfile::tempdir().unwrap();
-    // several of the pipeline's chunks (64 parts) and a partial last one
+    // several of the pipeline's chunks (32 parts) and a partial last one
     let n = 300;
     let (lib, rules) = many_parts(tmp.path(), n);
     for jobs in [1, 2, 3] {

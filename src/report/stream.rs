@@ -193,38 +193,72 @@ impl ReportStream {
     /// Write the four reports, each atomically. `report` is the run's report: its
     /// counts final, its parts at least those a summary names (the pipeline's
     /// `Keep::Notable`), which is all the Markdown summary and the page's list of
-    /// what changed need. An error names the path that failed; the old reports of a
-    /// failed write are left whole.
+    /// what changed need. An error names the path that failed (the first in the
+    /// order of [`REPORT_FILES`]); the old report of a failed write is left whole.
+    ///
+    /// The reports are written at the same time, on three threads: each is mostly a
+    /// copy of its spill and an fsync, which one after the other were the run's
+    /// serial tail.
     pub fn finish(mut self, report: &RunReport) -> io::Result<()> {
         if let Some(e) = self.error.take() {
             return Err(e);
         }
         let dir = self.dir.clone();
         let head = head_of(report);
-        atomic_write_stream(&dir.join(REPORT_FILES[0]), |w| {
-            json::document(&head, w, |w| self.json.copy_into(w))
-        })?;
-        let (plan, counts, junit) = (&self.plan, &self.counts, &mut self.junit);
-        atomic_write_stream(&dir.join(REPORT_FILES[1]), |w| {
-            plan.write(&head, counts, w, |slot, w| match junit.get_mut(slot) {
-                Some(s) => s.copy_into(w),
-                None => Ok(()),
+        let ReportStream {
+            plan,
+            renamed,
+            json: mut json_body,
+            mut rows,
+            mut sections,
+            mut junit,
+            counts,
+            kinds,
+            folders,
+            ..
+        } = self;
+        let write_json = || {
+            atomic_write_stream(&dir.join(REPORT_FILES[0]), |w| {
+                json::document(&head, w, |w| json_body.copy_into(w))
             })
-        })?;
-        atomic_write(&dir.join(REPORT_FILES[2]), markdown(report).as_bytes())?;
-        let renamed = &self.renamed;
-        let id_of = |path: &str| Some(id_for(renamed, path));
-        let page = html::Page {
-            head: report,
-            kept: &report.parts,
-            id_of: &id_of,
-            kinds: &self.kinds,
-            folders: &self.folders,
         };
-        let (rows, sections) = (&mut self.rows, &mut self.sections);
-        atomic_write_stream(&dir.join(REPORT_FILES[3]), |w| {
-            page.write(w, |w| rows.copy_into(w), |w| sections.copy_into(w))
-        })
+        let write_junit_and_summary = || {
+            atomic_write_stream(&dir.join(REPORT_FILES[1]), |w| {
+                plan.write(&head, &counts, w, |slot, w| match junit.get_mut(slot) {
+                    Some(s) => s.copy_into(w),
+                    None => Ok(()),
+                })
+            })
+            .and_then(|()| atomic_write(&dir.join(REPORT_FILES[2]), markdown(report).as_bytes()))
+        };
+        let mut write_page = || {
+            let id_of = |path: &str| Some(id_for(&renamed, path));
+            let page = html::Page {
+                head: report,
+                kept: &report.parts,
+                id_of: &id_of,
+                kinds: &kinds,
+                folders: &folders,
+            };
+            atomic_write_stream(&dir.join(REPORT_FILES[3]), |w| {
+                page.write(w, |w| rows.copy_into(w), |w| sections.copy_into(w))
+            })
+        };
+        let (json_done, junit_done, page_done) = std::thread::scope(|s| {
+            let json_done = s.spawn(write_json);
+            let junit_done = s.spawn(write_junit_and_summary);
+            let page_done = write_page();
+            (join(json_done), join(junit_done), page_done)
+        });
+        json_done.and(junit_done).and(page_done)
+    }
+}
+
+/// A writer thread's result; its panic is the caller's.
+fn join<T>(h: std::thread::ScopedJoinHandle<'_, T>) -> T {
+    match h.join() {
+        Ok(v) => v,
+        Err(panic) => std::panic::resume_unwind(panic),
     }
 }
 
