@@ -97,15 +97,7 @@ fn colliding_element_ids_stream_the_same() {
     let tmp = tempfile::tempdir().unwrap();
     let lib = tmp.path().join("lib");
     std::fs::create_dir_all(&lib).unwrap();
-    // a series 2 nH + 1 Ω as a one-port, in Touchstone 1.0 RI form (Z = R + jωL,
-    // S11 = (Z − 50)/(Z + 50), Pozar §4.3)
-    let mut text = String::from("# GHz S RI R 50\n");
-    for i in 1..=20 {
-        let f = i as f64 * 1e9;
-        let z = num_complex::Complex64::new(1.0, 2.0 * std::f64::consts::PI * f * 2e-9);
-        let s = (z - 50.0) / (z + 50.0);
-        text.push_str(&format!("{} {} {}\n", i, s.re, s.im));
-    }
+    let text = coil_one_port();
     for name in ["a b.s1p", "a-b.s1p", "a_b.s1p", "a.b.s1p"] {
         std::fs::write(lib.join(name), &text).unwrap();
     }
@@ -118,11 +110,9 @@ fn colliding_element_ids_stream_the_same() {
     compare_runs(&opts(&lib, &rules));
 }
 
-/// A library of `n` one-ports (series 2 nH + 1 Ω, Pozar §4.3 for S from Z) and its
-/// rules file, in `tmp`.
-fn many_parts(tmp: &Path, n: usize) -> (PathBuf, PathBuf) {
-    let lib = tmp.join("lib");
-    std::fs::create_dir_all(&lib).unwrap();
+/// A series 2 nH + 1 Ω as a one-port, in Touchstone 1.0 RI form (Z = R + jωL,
+/// S11 = (Z − 50)/(Z + 50), Pozar §4.3), 1–20 GHz.
+fn coil_one_port() -> String {
     let mut text = String::from("# GHz S RI R 50\n");
     for i in 1..=20 {
         let f = i as f64 * 1e9;
@@ -130,6 +120,14 @@ fn many_parts(tmp: &Path, n: usize) -> (PathBuf, PathBuf) {
         let s = (z - 50.0) / (z + 50.0);
         text.push_str(&format!("{} {} {}\n", i, s.re, s.im));
     }
+    text
+}
+
+/// A library of `n` one-ports ([`coil_one_port`]) and its rules file, in `tmp`.
+fn many_parts(tmp: &Path, n: usize) -> (PathBuf, PathBuf) {
+    let lib = tmp.join("lib");
+    std::fs::create_dir_all(&lib).unwrap();
+    let text = coil_one_port();
     for k in 0..n {
         std::fs::write(lib.join(format!("coil-{k:04}.s1p")), &text).unwrap();
     }
