@@ -15,7 +15,7 @@ use rayon::prelude::*;
 use crate::units::{eng, sig3};
 use crate::verdict::{CheckStatus, PartReport, PartStatus, PlotData, RunReport, Severity};
 
-use super::plot::{auto_range, svg_chart, Chart, Line, Mark};
+use super::plot::{auto_range, svg_charts_into, Chart, Line, Mark};
 use super::{check_word, count_line, drift_listed_of, is_failure, show_change, show_value};
 
 /// The HTML page.
@@ -710,11 +710,9 @@ fn plots(o: &mut String, p: &PlotData, id: &str) {
             None,
         ));
     }
-    let _ = write!(o, "<div class=\"plots\">");
-    for c in &charts {
-        let _ = write!(o, "<figure class=\"plot\">{}</figure>", svg_chart(c));
-    }
-    let _ = writeln!(o, "</div>");
+    o.push_str("<div class=\"plots\">");
+    svg_charts_into(o, &charts, "<figure class=\"plot\">", "</figure>");
+    o.push_str("</div>\n");
 }
 
 const CSS: &str = r#"
