@@ -104,7 +104,7 @@ pub fn round_sig(v: f64, digits: i32) -> f64 {
     if v == 0.0 || !v.is_finite() {
         return v;
     }
-    let e = v.abs().log10().floor() as i32;
+    let e = floor_log10(v.abs());
     let scale = 10f64.powi(digits - 1 - e);
     let r = (v * scale).round() / scale;
     if r.is_finite() {
@@ -112,6 +112,37 @@ pub fn round_sig(v: f64, digits: i32) -> f64 {
     } else {
         v
     }
+}
+
+/// `a.log10().floor() as i32` for a finite `a` > 0, by comparing with powers of ten: a
+/// plot's numbers are rounded by [`round_sig`] one by one, and `log10` was most of
+/// that. Within 1e-12 (relative) of a power of ten it returns what `log10` gives,
+/// which can differ from the exact answer there; elsewhere `log10`'s error (under an
+/// ulp, below 1e-13 here) cannot move it across an integer, so both agree.
+fn floor_log10(a: f64) -> i32 {
+    /// 10^k for k = −40 … 40
+    const P10: [f64; 81] = [
+        1e-40, 1e-39, 1e-38, 1e-37, 1e-36, 1e-35, 1e-34, 1e-33, 1e-32, 1e-31, 1e-30, 1e-29, 1e-28,
+        1e-27, 1e-26, 1e-25, 1e-24, 1e-23, 1e-22, 1e-21, 1e-20, 1e-19, 1e-18, 1e-17, 1e-16, 1e-15,
+        1e-14, 1e-13, 1e-12, 1e-11, 1e-10, 1e-9, 1e-8, 1e-7, 1e-6, 1e-5, 1e-4, 1e-3, 1e-2, 1e-1,
+        1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+        1e17, 1e18, 1e19, 1e20, 1e21, 1e22, 1e23, 1e24, 1e25, 1e26, 1e27, 1e28, 1e29, 1e30, 1e31,
+        1e32, 1e33, 1e34, 1e35, 1e36, 1e37, 1e38, 1e39, 1e40,
+    ];
+    let by_log = |a: f64| a.log10().floor() as i32;
+    if !(1e-38..=1e38).contains(&a) {
+        return by_log(a);
+    }
+    // floor(e₂·log₁₀2), with 78913/2¹⁸ for log₁₀2 (exact for |e₂| < 1700): the answer
+    // is this or one more, as a spans less than a factor of two
+    let e2 = ((a.to_bits() >> 52) & 0x7ff) as i32 - 1023;
+    let est = (e2 * 78913) >> 18;
+    let at = |k: i32| P10[(k + 40) as usize];
+    let e = if a >= at(est + 1) { est + 1 } else { est };
+    if a < at(e) * (1.0 + 1e-12) || a > at(e + 1) * (1.0 - 1e-12) {
+        return by_log(a);
+    }
+    e
 }
 
 /// Indices of the points to keep when drawing `series` (all on the grid `freq`, which
@@ -1005,6 +1036,58 @@ mod tests {
         let mut bent = pts.clone();
         bent[50].1 += 5.0;
         assert!(simplify(&bent, 0.1).contains(&bent[50]));
+    }
+
+    #[test]
+    fn floor_log10_is_the_floor_of_log10() {
+        let mut vals = vec![
+            5e-324,
+            f64::MIN_POSITIVE,
+            1e-300,
+            1e-39,
+            1e-38,
+            1e38,
+            1e39,
+            1e300,
+        ];
+        for k in -45..=45 {
+            let p = 10f64.powi(k);
+            for q in [
+                p,
+                10f64.powf(k as f64),
+                format!("1e{k}").parse().unwrap_or(p),
+            ] {
+                let mut v = q;
+                for _ in 0..4 {
+                    v = v.next_up();
+                    vals.push(v);
+                }
+                v = q;
+                for _ in 0..4 {
+                    v = v.next_down();
+                    vals.push(v);
+                }
+                for r in [1e-13, 1e-12, 2e-12, 1e-11, 1e-6, 0.5, 2.0, 3.0, 9.99] {
+                    vals.extend([q, q * (1.0 + r), q * (1.0 - r.min(0.5))]);
+                }
+            }
+        }
+        let mut state = 0x2545_f491_4f6c_dd1du64;
+        for _ in 0..200_000 {
+            // xorshift64: magnitudes over the whole range, and over the plots' range
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            let v = f64::from_bits(state >> 1);
+            if v.is_finite() && v > 0.0 {
+                vals.push(v);
+            }
+            let u = (state >> 11) as f64 / (1u64 << 53) as f64;
+            vals.push(10f64.powf(u * 80.0 - 40.0));
+        }
+        for v in vals {
+            assert_eq!(floor_log10(v), v.log10().floor() as i32, "{v:e}");
+        }
     }
 
     #[test]
