@@ -308,6 +308,13 @@ pub fn push_fixed(out: &mut String, v: f64, decimals: usize) {
             out.push_str(ints.format(q));
             return;
         }
+        if decimals == 1 {
+            // the charts' coordinates: two pieces
+            const TENTHS: [&str; 10] = [".0", ".1", ".2", ".3", ".4", ".5", ".6", ".7", ".8", ".9"];
+            out.push_str(ints.format(q / 10));
+            out.push_str(TENTHS[(q % 10) as usize]);
+            return;
+        }
         let unit = POW10[decimals];
         out.push_str(ints.format(q / unit));
         out.push('.');
@@ -419,9 +426,16 @@ fn rounded_by_float(v: f64, decimals: usize) -> Option<u64> {
     if p.is_nan() || p >= 1e11 {
         return None;
     }
-    let r = p.round();
-    // exact: the fraction of a double is a double
-    ((p - r).abs() < 0.499).then_some(r as u64)
+    // exact below 2⁵²: the whole part, and the fraction of a double is a double
+    let whole = p as u64;
+    let frac = p - whole as f64;
+    if frac < 0.499 {
+        Some(whole)
+    } else if frac > 0.501 {
+        Some(whole + 1)
+    } else {
+        None
+    }
 }
 
 /// The text of the rounded |v|·10^d `q` with `decimals` digits after the point and a
