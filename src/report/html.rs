@@ -679,6 +679,8 @@ fn plots(o: &mut String, p: &PlotData, id: &str) {
     // off, so the value range is taken from well below SRF (the curves are clipped).
     let cutoff = srf.map(|f| 0.8 * f);
     let mut charts: Vec<Chart> = Vec::new();
+    // the same marks on every chart: their labels worked out once
+    let all_marks = marks(p);
     let chart =
         |suffix: &str, title: &str, unit: &str, lines: Vec<Line>, strip: bool, cut: Option<f64>| {
             let vals: Vec<&[Option<f64>]> = lines.iter().map(|l| l.values.as_slice()).collect();
@@ -691,7 +693,7 @@ fn plots(o: &mut String, p: &PlotData, id: &str) {
                 freq: p.freq.clone(),
                 lines,
                 band: p.band,
-                marks: marks(p),
+                marks: all_marks.clone(),
                 y_range,
                 strip: if strip {
                     p.loss_bands.clone()
