@@ -221,14 +221,25 @@ pub const SI_PREFIXES: [(f64, &str); 9] = [
 /// prefix: `eng(9.123e9, "Hz")` → `"9.12 GHz"`. A ratio (empty unit) prints without a
 /// prefix unless it is very large or small.
 pub fn eng(value: f64, unit: &str) -> String {
+    let mut s = String::with_capacity(16 + unit.len());
+    push_eng(&mut s, value, unit);
+    s
+}
+
+/// [`eng`] appended to `out`.
+pub fn push_eng(out: &mut String, value: f64, unit: &str) {
     if !value.is_finite() {
-        return "n/a".to_string();
+        out.push_str("n/a");
+        return;
     }
     if unit.is_empty() {
-        return sig3(value);
+        push_sig3(out, value);
+        return;
     }
     if value == 0.0 {
-        return format!("0 {unit}");
+        out.push_str("0 ");
+        out.push_str(unit);
+        return;
     }
     let a = value.abs();
     let (k, p) = SI_PREFIXES
@@ -236,29 +247,32 @@ pub fn eng(value: f64, unit: &str) -> String {
         .copied()
         .find(|(k, _)| a >= *k * 0.9995)
         .unwrap_or((1e-15, "f"));
-    let mut s = String::with_capacity(16 + unit.len());
-    push_sig3(&mut s, value / k);
-    s.push(' ');
-    s.push_str(p);
-    s.push_str(unit);
-    s
+    push_sig3_finite(out, value / k);
+    out.push(' ');
+    out.push_str(p);
+    out.push_str(unit);
 }
 
 /// Three significant digits, trailing zeros trimmed: 9.123 → "9.12", 12.0 → "12".
 pub fn sig3(v: f64) -> String {
-    if !v.is_finite() {
-        return "n/a".to_string();
-    }
-    if v == 0.0 {
-        return "0".to_string();
-    }
     let mut s = String::with_capacity(24);
     push_sig3(&mut s, v);
     s
 }
 
+/// [`sig3`] appended to `out`.
+pub fn push_sig3(out: &mut String, v: f64) {
+    if !v.is_finite() {
+        out.push_str("n/a");
+    } else if v == 0.0 {
+        out.push('0');
+    } else {
+        push_sig3_finite(out, v);
+    }
+}
+
 /// [`sig3`] of a finite, non-zero `v`, appended to `out`.
-fn push_sig3(out: &mut String, v: f64) {
+fn push_sig3_finite(out: &mut String, v: f64) {
     let a = v.abs();
     let decimals = if a >= 100.0 {
         0
@@ -284,6 +298,33 @@ fn push_sig3(out: &mut String, v: f64) {
 /// formatting falls back to arbitrary-precision arithmetic for most values and is
 /// the slow path of `core::fmt`; a report prints hundreds of thousands of these.
 pub fn push_fixed(out: &mut String, v: f64, decimals: usize) {
+    // the usual case, straight into `out`
+    if let Some(q) = rounded_by_float(v, decimals) {
+        if v.is_sign_negative() {
+            out.push('-');
+        }
+        let mut ints = itoa::Buffer::new();
+        if decimals == 0 {
+            out.push_str(ints.format(q));
+            return;
+        }
+        if decimals == 1 {
+            // the charts' coordinates: two pieces
+            const TENTHS: [&str; 10] = [".0", ".1", ".2", ".3", ".4", ".5", ".6", ".7", ".8", ".9"];
+            out.push_str(ints.format(q / 10));
+            out.push_str(TENTHS[(q % 10) as usize]);
+            return;
+        }
+        let unit = POW10[decimals];
+        out.push_str(ints.format(q / unit));
+        out.push('.');
+        let frac = ints.format(q % unit);
+        for _ in frac.len()..decimals {
+            out.push('0');
+        }
+        out.push_str(frac);
+        return;
+    }
     let mut buf = [0u8; 48];
     match fixed_digits(v, decimals, &mut buf) {
         Some(s) => out.push_str(s),
@@ -293,6 +334,28 @@ pub fn push_fixed(out: &mut String, v: f64, decimals: usize) {
         }
     }
 }
+
+/// 10^d for the decimals the integer path covers.
+const POW10: [u64; 18] = [
+    1,
+    10,
+    100,
+    1_000,
+    10_000,
+    100_000,
+    1_000_000,
+    10_000_000,
+    100_000_000,
+    1_000_000_000,
+    10_000_000_000,
+    100_000_000_000,
+    1_000_000_000_000,
+    10_000_000_000_000,
+    100_000_000_000_000,
+    1_000_000_000_000_000,
+    10_000_000_000_000_000,
+    100_000_000_000_000_000,
+];
 
 /// [`push_fixed`] as a `Display` value, for `write!`: `Fixed(v, 1)` prints as `{v:.1}`.
 #[derive(Debug, Clone, Copy)]
@@ -312,29 +375,12 @@ impl fmt::Display for Fixed {
 /// path does not cover (not finite, |v| ≥ 2⁵³, more than 17 decimals, a rounded value
 /// of 2⁶⁴ or more), which the callers leave to std.
 fn fixed_digits(v: f64, decimals: usize, buf: &mut [u8; 48]) -> Option<&str> {
-    const POW10: [u64; 18] = [
-        1,
-        10,
-        100,
-        1_000,
-        10_000,
-        100_000,
-        1_000_000,
-        10_000_000,
-        100_000_000,
-        1_000_000_000,
-        10_000_000_000,
-        100_000_000_000,
-        1_000_000_000_000,
-        10_000_000_000_000,
-        100_000_000_000_000,
-        1_000_000_000_000_000,
-        10_000_000_000_000_000,
-        100_000_000_000_000_000,
-    ];
     // written so that NaN, too, takes the std path
     if decimals >= POW10.len() || v.is_nan() || v.abs() >= 9_007_199_254_740_992.0 {
         return None;
+    }
+    if let Some(q) = rounded_by_float(v, decimals) {
+        return Some(write_fixed(q, v.is_sign_negative(), decimals, buf));
     }
     // |v| = m·2^e exactly; below 2⁵³ the exponent e is ≤ 0
     let bits = v.to_bits();
@@ -362,7 +408,39 @@ fn fixed_digits(v: f64, decimals: usize, buf: &mut [u8; 48]) -> Option<&str> {
             q
         }
     };
-    let mut q = u64::try_from(q).ok()?;
+    let q = u64::try_from(q).ok()?;
+    Some(write_fixed(q, v.is_sign_negative(), decimals, buf))
+}
+
+/// |v|·10^d rounded to an integer by one floating-point product, when that is surely
+/// the exact rounding: the product is within half an ulp (at most 2⁻¹⁷ below 10¹¹) of the
+/// exact |v|·10^d, so when it lies clearly inside (not within 0.001 of the midpoint
+/// between two integers) the exact value is nearer the same integer and no tie rule
+/// is involved. None for the rest (ties, near-ties, large values), which the integer
+/// path decides; this one costs a few instructions where that costs hundreds.
+fn rounded_by_float(v: f64, decimals: usize) -> Option<u64> {
+    const POW10F: [f64; 16] = [
+        1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15,
+    ];
+    let p = v.abs() * *POW10F.get(decimals)?;
+    if p.is_nan() || p >= 1e11 {
+        return None;
+    }
+    // exact below 2⁵²: the whole part, and the fraction of a double is a double
+    let whole = p as u64;
+    let frac = p - whole as f64;
+    if frac < 0.499 {
+        Some(whole)
+    } else if frac > 0.501 {
+        Some(whole + 1)
+    } else {
+        None
+    }
+}
+
+/// The text of the rounded |v|·10^d `q` with `decimals` digits after the point and a
+/// minus sign when `negative`, written into the end of `buf`.
+fn write_fixed(mut q: u64, negative: bool, decimals: usize, buf: &mut [u8; 48]) -> &str {
     // digits from the right: the decimals, the point, the integer part, the sign
     let mut i = buf.len();
     for _ in 0..decimals {
@@ -382,11 +460,12 @@ fn fixed_digits(v: f64, decimals: usize, buf: &mut [u8; 48]) -> Option<&str> {
             break;
         }
     }
-    if v.is_sign_negative() {
+    if negative {
         i -= 1;
         buf[i] = b'-';
     }
-    std::str::from_utf8(&buf[i..]).ok()
+    // only ASCII digits, a point and a sign were written
+    std::str::from_utf8(&buf[i..]).unwrap_or_default()
 }
 
 #[cfg(test)]
@@ -501,6 +580,55 @@ mod tests {
                 assert_eq!(Fixed(v, d).to_string(), s);
             }
         }
+    }
+
+    #[test]
+    fn float_rounding_path_matches_std_at_its_edges() {
+        // the one-product path decides everything but near-ties below 10¹¹: probe the
+        // decimal midpoints x.xx5 (never exact in binary) and their neighbouring
+        // doubles, exact binary ties, both signs, zero, and the 10¹¹ limit
+        let mut s = String::new();
+        let mut check = |v: f64, d: usize| {
+            s.clear();
+            push_fixed(&mut s, v, d);
+            assert_eq!(s, format!("{v:.d$}"), "{v:e} with {d} decimals");
+        };
+        for d in 0..=6usize {
+            let unit = 10f64.powi(-(d as i32));
+            for k in -3000i64..3000 {
+                for base in [0.0, 1.0, 99.0, 1e4, 123_456.0, 9.9e5] {
+                    let mid = base + (k as f64 + 0.5) * unit;
+                    for v in [mid, mid.next_up(), mid.next_down(), base + k as f64 * unit] {
+                        check(v, d);
+                        check(-v, d);
+                    }
+                }
+            }
+            let top = 1e11 * unit;
+            for v in [
+                top,
+                top.next_down(),
+                top.next_up(),
+                top * 0.999_999,
+                top - 0.5 * unit,
+            ] {
+                check(v, d);
+                check(-v, d);
+            }
+        }
+        for v in [
+            0.0, -0.0, 5e-324, -5e-324, 0.05, -0.05, 0.15, 0.25, 2.5, -2.5,
+        ] {
+            for d in 0..=17 {
+                check(v, d);
+            }
+        }
+        assert_eq!(
+            rounded_by_float(0.25, 1),
+            None,
+            "an exact tie is left to the integers"
+        );
+        assert_eq!(rounded_by_float(123.44, 1), Some(1234));
     }
 
     #[test]

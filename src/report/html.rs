@@ -12,10 +12,10 @@ use std::fmt::Write as _;
 
 use rayon::prelude::*;
 
-use crate::units::{eng, sig3};
+use crate::units::{eng, push_eng, sig3};
 use crate::verdict::{CheckStatus, PartReport, PartStatus, PlotData, RunReport, Severity};
 
-use super::plot::{auto_range, svg_chart, Chart, Line, Mark};
+use super::plot::{auto_range, svg_charts_into, Chart, Line, Mark};
 use super::{check_word, count_line, drift_listed_of, is_failure, show_change, show_value};
 
 /// The HTML page.
@@ -198,18 +198,29 @@ pub(crate) fn slug(path: &str) -> String {
 }
 
 fn esc(s: &str) -> String {
-    let mut o = String::with_capacity(s.len());
-    for c in s.chars() {
-        match c {
-            '&' => o.push_str("&amp;"),
-            '<' => o.push_str("&lt;"),
-            '>' => o.push_str("&gt;"),
-            '"' => o.push_str("&quot;"),
-            '\'' => o.push_str("&#39;"),
-            c => o.push(c),
-        }
-    }
+    let mut o = String::with_capacity(s.len() + 8);
+    push_esc(&mut o, s);
     o
+}
+
+/// [`esc`] appended to `o`: the runs between special characters copied whole.
+fn push_esc(o: &mut String, s: &str) {
+    let mut rest = s;
+    while let Some(i) = rest
+        .bytes()
+        .position(|b| matches!(b, b'&' | b'<' | b'>' | b'"' | b'\''))
+    {
+        o.push_str(&rest[..i]);
+        o.push_str(match rest.as_bytes()[i] {
+            b'&' => "&amp;",
+            b'<' => "&lt;",
+            b'>' => "&gt;",
+            b'"' => "&quot;",
+            _ => "&#39;",
+        });
+        rest = &rest[i + 1..];
+    }
+    o.push_str(rest);
 }
 
 fn folder_of(path: &str) -> &str {
@@ -510,15 +521,32 @@ fn part_section(o: &mut String, strict: bool, p: &PartReport, id: &str) {
                     let _ = write!(notes, "<div class=\"hint\">hint: {}</div>", esc(h));
                 }
             }
-            let _ = writeln!(
+            for piece in ["<tr class=\"", cls, "\"><td><code title=\""] {
+                o.push_str(piece);
+            }
+            push_esc(o, &c.rules_file);
+            o.push_str(": ");
+            push_esc(o, &c.expr);
+            o.push_str("\">");
+            push_esc(o, &c.id);
+            for piece in ["</code></td><td>", word, sev, "</td><td class=\"shown\">"] {
+                o.push_str(piece);
+            }
+            push_esc(
                 o,
-                "<tr class=\"{cls}\"><td><code title=\"{}: {}\">{}</code></td><td>{word}{sev}</td><td class=\"shown\">{}</td><td>{}</td><td>{notes}</td></tr>",
-                esc(&c.rules_file),
-                esc(&c.expr),
-                esc(&c.id),
-                esc(if c.shown.is_empty() { &c.expr } else { &c.shown }),
-                c.worst_f.map(|f| eng(f, "Hz")).unwrap_or_default()
+                if c.shown.is_empty() {
+                    &c.expr
+                } else {
+                    &c.shown
+                },
             );
+            o.push_str("</td><td>");
+            if let Some(f) = c.worst_f {
+                push_eng(o, f, "Hz");
+            }
+            for piece in ["</td><td>", &notes, "</td></tr>\n"] {
+                o.push_str(piece);
+            }
         }
         let _ = writeln!(o, "</tbody></table>");
     }
@@ -549,21 +577,20 @@ fn part_section(o: &mut String, strict: bool, p: &PartReport, id: &str) {
         .filter_map(|(k, label)| p.figures.get(*k).map(|v| (*k, *label, *v)))
         .collect();
     if !known.is_empty() {
-        let _ = write!(o, "<dl class=\"figs\">");
+        o.push_str("<dl class=\"figs\">");
         for (k, label, v) in &known {
             let text = match (k, v) {
                 (&"srf", None) => "above the sweep".to_string(),
                 (&"points", Some(v)) | (&"ports", Some(v)) => format!("{v}"),
                 _ => show_value(k, *v),
             };
-            let _ = write!(
-                o,
-                "<div><dt>{}</dt><dd>{}</dd></div>",
-                esc(label),
-                esc(&text)
-            );
+            o.push_str("<div><dt>");
+            push_esc(o, label);
+            o.push_str("</dt><dd>");
+            push_esc(o, &text);
+            o.push_str("</dd></div>");
         }
-        let _ = writeln!(o, "</dl>");
+        o.push_str("</dl>\n");
     }
     let rest: Vec<(&String, &Option<f64>)> = p
         .figures
@@ -571,19 +598,15 @@ fn part_section(o: &mut String, strict: bool, p: &PartReport, id: &str) {
         .filter(|(k, _)| !KEY_FIGURES.iter().any(|(n, _)| n == k))
         .collect();
     if !rest.is_empty() {
-        let _ = write!(
-            o,
-            "<details><summary>all figures</summary><dl class=\"figs small\">"
-        );
+        o.push_str("<details><summary>all figures</summary><dl class=\"figs small\">");
         for (k, v) in rest {
-            let _ = write!(
-                o,
-                "<div><dt>{}</dt><dd>{}</dd></div>",
-                esc(k),
-                esc(&show_value(k, *v))
-            );
+            o.push_str("<div><dt>");
+            push_esc(o, k);
+            o.push_str("</dt><dd>");
+            push_esc(o, &show_value(k, *v));
+            o.push_str("</dd></div>");
         }
-        let _ = writeln!(o, "</dl></details>");
+        o.push_str("</dl></details>\n");
     }
     let _ = writeln!(
         o,
@@ -656,6 +679,8 @@ fn plots(o: &mut String, p: &PlotData, id: &str) {
     // off, so the value range is taken from well below SRF (the curves are clipped).
     let cutoff = srf.map(|f| 0.8 * f);
     let mut charts: Vec<Chart> = Vec::new();
+    // the same marks on every chart: their labels worked out once
+    let all_marks = marks(p);
     let chart =
         |suffix: &str, title: &str, unit: &str, lines: Vec<Line>, strip: bool, cut: Option<f64>| {
             let vals: Vec<&[Option<f64>]> = lines.iter().map(|l| l.values.as_slice()).collect();
@@ -668,7 +693,7 @@ fn plots(o: &mut String, p: &PlotData, id: &str) {
                 freq: p.freq.clone(),
                 lines,
                 band: p.band,
-                marks: marks(p),
+                marks: all_marks.clone(),
                 y_range,
                 strip: if strip {
                     p.loss_bands.clone()
@@ -710,11 +735,9 @@ fn plots(o: &mut String, p: &PlotData, id: &str) {
             None,
         ));
     }
-    let _ = write!(o, "<div class=\"plots\">");
-    for c in &charts {
-        let _ = write!(o, "<figure class=\"plot\">{}</figure>", svg_chart(c));
-    }
-    let _ = writeln!(o, "</div>");
+    o.push_str("<div class=\"plots\">");
+    svg_charts_into(o, &charts, "<figure class=\"plot\">", "</figure>");
+    o.push_str("</div>\n");
 }
 
 const CSS: &str = r#"

@@ -84,11 +84,35 @@ impl Body {
         self.skipped += other.skipped;
     }
 
+    /// The cases serialized as quick-junit writes them inside a suite, with the
+    /// suite's counts.
+    fn of(cases: Vec<Case>) -> Body {
+        let mut b = Body::default();
+        for c in &cases {
+            b.tests += 1;
+            match &c.status {
+                Status::Success => {}
+                Status::Failure { .. } => b.failures += 1,
+                Status::Error { .. } => b.errors += 1,
+                Status::Skipped { .. } => b.skipped += 1,
+            }
+        }
+        if cases.iter().all(Case::is_clean) {
+            for c in &cases {
+                c.write(&mut b.text);
+            }
+        } else {
+            b.text = Body::by_quick_junit(cases).text;
+        }
+        b
+    }
+
     /// The cases serialized by quick-junit inside a suite of their own, cut out of
-    /// that document: the same bytes they have in the whole one.
-    fn of(cases: Vec<TestCase>) -> Body {
+    /// that document: the same bytes they have in the whole one. Used where a text
+    /// holds something quick-junit takes out (escape sequences, control characters).
+    fn by_quick_junit(cases: Vec<Case>) -> Body {
         let mut suite = TestSuite::new("cases");
-        suite.add_test_cases(cases);
+        suite.add_test_cases(cases.into_iter().map(Case::into_test_case));
         let mut b = Body {
             tests: suite.tests,
             failures: suite.failures,
@@ -112,6 +136,216 @@ impl Body {
         }
         b
     }
+}
+
+/// One test case: the part of quick-junit's `TestCase` the report uses. The report
+/// writes it itself, byte for byte as quick-junit would: building quick-junit's case
+/// passes every text through an ANSI-escape parser (`strip-ansi-escapes`) and a
+/// character filter, which cost more than the rest of the JUnit report, and the texts
+/// here (paths, check ids, values) almost never hold anything either would remove.
+/// When one does, [`Body::of`] hands the cases to quick-junit.
+#[derive(Debug, Clone)]
+pub(crate) struct Case {
+    name: String,
+    classname: String,
+    status: Status,
+    system_out: Option<String>,
+}
+
+/// How a [`Case`] ended; the texts are the `message`, `type` and body of its element.
+#[derive(Debug, Clone)]
+enum Status {
+    Success,
+    Failure {
+        message: String,
+        ty: &'static str,
+        description: Option<String>,
+    },
+    Error {
+        message: String,
+        ty: &'static str,
+        description: Option<String>,
+    },
+    Skipped {
+        message: String,
+    },
+}
+
+impl Case {
+    fn new(name: String, classname: &str, status: Status) -> Case {
+        Case {
+            name,
+            classname: classname.to_string(),
+            status,
+            system_out: None,
+        }
+    }
+
+    /// The texts of the case, as they go into the XML.
+    fn texts(&self) -> impl Iterator<Item = &str> {
+        let (message, ty, description) = match &self.status {
+            Status::Success => (None, None, None),
+            Status::Failure {
+                message,
+                ty,
+                description,
+            }
+            | Status::Error {
+                message,
+                ty,
+                description,
+            } => (Some(message.as_str()), Some(*ty), description.as_deref()),
+            Status::Skipped { message } => (Some(message.as_str()), None, None),
+        };
+        [
+            Some(self.name.as_str()),
+            Some(self.classname.as_str()),
+            message,
+            ty,
+            description,
+            self.system_out.as_deref(),
+        ]
+        .into_iter()
+        .flatten()
+    }
+
+    /// Whether quick-junit would keep every text as it is.
+    fn is_clean(&self) -> bool {
+        self.texts().all(kept_by_quick_junit)
+    }
+
+    /// The case as quick-junit writes it inside a suite: each line starting with its
+    /// line break and indentation.
+    fn write(&self, o: &mut Vec<u8>) {
+        o.extend_from_slice(b"\n        <testcase name=\"");
+        push_xml(o, &self.name);
+        o.extend_from_slice(b"\" classname=\"");
+        push_xml(o, &self.classname);
+        let (tag, message, ty, description) = match &self.status {
+            Status::Success => ("", None, None, None),
+            Status::Failure {
+                message,
+                ty,
+                description,
+            } => ("failure", Some(message), Some(*ty), description.as_ref()),
+            Status::Error {
+                message,
+                ty,
+                description,
+            } => ("error", Some(message), Some(*ty), description.as_ref()),
+            Status::Skipped { message } => ("skipped", Some(message), None, None),
+        };
+        if tag.is_empty() && self.system_out.is_none() {
+            o.extend_from_slice(b"\"/>");
+            return;
+        }
+        o.extend_from_slice(b"\">");
+        if !tag.is_empty() {
+            o.extend_from_slice(b"\n            <");
+            o.extend_from_slice(tag.as_bytes());
+            if let Some(m) = message {
+                o.extend_from_slice(b" message=\"");
+                push_xml(o, m);
+                o.push(b'"');
+            }
+            if let Some(t) = ty {
+                o.extend_from_slice(b" type=\"");
+                push_xml(o, t);
+                o.push(b'"');
+            }
+            match description {
+                Some(d) => {
+                    o.push(b'>');
+                    push_xml(o, d);
+                    o.extend_from_slice(b"</");
+                    o.extend_from_slice(tag.as_bytes());
+                    o.push(b'>');
+                }
+                None => o.extend_from_slice(b"/>"),
+            }
+        }
+        if let Some(out) = &self.system_out {
+            o.extend_from_slice(b"\n            <system-out>");
+            push_xml(o, out);
+            o.extend_from_slice(b"</system-out>");
+        }
+        o.extend_from_slice(b"\n        </testcase>");
+    }
+
+    /// The same case as quick-junit's.
+    fn into_test_case(self) -> TestCase {
+        let status = match self.status {
+            Status::Success => TestCaseStatus::success(),
+            Status::Failure {
+                message,
+                ty,
+                description,
+            } => non_success(NonSuccessKind::Failure, message, ty, description),
+            Status::Error {
+                message,
+                ty,
+                description,
+            } => non_success(NonSuccessKind::Error, message, ty, description),
+            Status::Skipped { message } => {
+                let mut st = TestCaseStatus::skipped();
+                st.set_message(message);
+                st
+            }
+        };
+        let mut tc = TestCase::new(self.name, status);
+        tc.set_classname(self.classname);
+        if let Some(out) = self.system_out {
+            tc.set_system_out(out);
+        }
+        tc
+    }
+}
+
+fn non_success(
+    kind: NonSuccessKind,
+    message: String,
+    ty: &str,
+    description: Option<String>,
+) -> TestCaseStatus {
+    let mut st = TestCaseStatus::non_success(kind);
+    st.set_message(message);
+    st.set_type(ty);
+    if let Some(d) = description {
+        st.set_description(d);
+    }
+    st
+}
+
+/// Whether quick-junit's `XmlString` keeps `s` as it is. It runs the text through an
+/// ANSI parser that drops every C0 control but the line feed (so ESC sequences, tabs
+/// and CRs), and C1 controls (U+0080–U+009F), then drops the remaining C0 controls;
+/// everything else is kept.
+fn kept_by_quick_junit(s: &str) -> bool {
+    let b = s.as_bytes();
+    // U+0080–U+009F are 0xC2 0x80–0x9F in UTF-8
+    !b.iter().enumerate().any(|(i, &c)| {
+        (c < 0x20 && c != b'\n') || (c == 0xC2 && b.get(i + 1).is_some_and(|&n| n <= 0x9F))
+    })
+}
+
+/// Text escaped as quick-xml escapes attribute values and text (`& < > ' "`).
+fn push_xml(o: &mut Vec<u8>, s: &str) {
+    let mut rest = s.as_bytes();
+    while let Some(i) = rest
+        .iter()
+        .position(|b| matches!(b, b'&' | b'<' | b'>' | b'\'' | b'"'))
+    {
+        o.extend_from_slice(&rest[..i]);
+        o.extend_from_slice(match rest[i] {
+            b'&' => b"&amp;",
+            b'<' => b"&lt;",
+            b'>' => b"&gt;",
+            b'\'' => b"&apos;",
+            _ => b"&quot;",
+        });
+        rest = &rest[i + 1..];
+    }
+    o.extend_from_slice(rest);
 }
 
 fn find(hay: &[u8], needle: &[u8]) -> Option<usize> {
@@ -143,7 +377,7 @@ impl Plan {
     pub(crate) fn part_bodies(&self, p: &PartReport, strict: bool) -> Vec<(usize, Body)> {
         let mut out = Vec::new();
         for (i, file) in self.rules.iter().enumerate() {
-            let cases: Vec<TestCase> = p
+            let cases: Vec<Case> = p
                 .checks
                 .iter()
                 .filter(|c| &c.rules_file == file)
@@ -153,42 +387,41 @@ impl Plan {
                 out.push((i, Body::of(cases)));
             }
         }
+        let error = |ty: &'static str, why: &str| Status::Error {
+            message: first_line(why).to_string(),
+            ty,
+            description: Some(why.to_string()),
+        };
         if p.status == PartStatus::Unreadable {
-            let mut st = TestCaseStatus::non_success(NonSuccessKind::Error);
             let why = p.error.as_deref().unwrap_or("unknown error");
-            st.set_message(first_line(why));
-            st.set_type("unreadable");
-            st.set_description(why);
-            let mut tc = TestCase::new(format!("{} :: read", p.path), st);
-            tc.set_classname(p.path.as_str());
+            let tc = Case::new(
+                format!("{} :: read", p.path),
+                &p.path,
+                error("unreadable", why),
+            );
             out.push((self.fixed(UNREADABLE), Body::of(vec![tc])));
         }
         // a part that was read but whose view or sidecar failed may have no check at
         // all; without its own case it would fail the run and appear nowhere in the XML
         if let (false, Some(why)) = (p.status == PartStatus::Unreadable, p.error.as_deref()) {
-            let mut st = TestCaseStatus::non_success(NonSuccessKind::Error);
-            st.set_message(first_line(why));
-            st.set_type("error");
-            st.set_description(why);
-            let mut tc = TestCase::new(format!("{} :: judge", p.path), st);
-            tc.set_classname(p.path.as_str());
+            let tc = Case::new(format!("{} :: judge", p.path), &p.path, error("error", why));
             out.push((self.fixed(UNJUDGED), Body::of(vec![tc])));
         }
         if p.status == PartStatus::Unchecked {
-            let mut st = TestCaseStatus::skipped();
-            st.set_message("no rule group selects this part; data checks only");
-            let mut tc = TestCase::new(format!("{} :: rules", p.path), st);
-            tc.set_classname(p.path.as_str());
+            let st = Status::Skipped {
+                message: "no rule group selects this part; data checks only".to_string(),
+            };
+            let tc = Case::new(format!("{} :: rules", p.path), &p.path, st);
             out.push((self.fixed(UNCHECKED), Body::of(vec![tc])));
         }
         let mut baseline = Vec::new();
         if p.status == PartStatus::Missing {
-            let mut st = TestCaseStatus::non_success(NonSuccessKind::Failure);
-            st.set_message("in the baseline but no longer in the library");
-            st.set_type("missing");
-            let mut tc = TestCase::new(format!("{} :: present", p.path), st);
-            tc.set_classname(p.path.as_str());
-            baseline.push(tc);
+            let st = Status::Failure {
+                message: "in the baseline but no longer in the library".to_string(),
+                ty: "missing",
+                description: None,
+            };
+            baseline.push(Case::new(format!("{} :: present", p.path), &p.path, st));
         }
         for d in &p.drift {
             baseline.push(drift_case(&p.path, d));
@@ -271,7 +504,7 @@ fn marker(slot: usize) -> String {
     format!("lcgate-cases-{slot}")
 }
 
-fn drift_case(path: &str, d: &crate::verdict::DriftOutcome) -> TestCase {
+fn drift_case(path: &str, d: &crate::verdict::DriftOutcome) -> Case {
     let text = format!(
         "{}: {} -> {} ({}, limit {})",
         d.quantity,
@@ -280,31 +513,30 @@ fn drift_case(path: &str, d: &crate::verdict::DriftOutcome) -> TestCase {
         show_change(d),
         d.limit
     );
-    let st = if d.status == CheckStatus::Pass {
-        TestCaseStatus::success()
-    } else {
-        let mut st = TestCaseStatus::non_success(NonSuccessKind::Failure);
-        st.set_message(text.as_str());
-        st.set_type(if d.status == CheckStatus::Fail {
-            "drift"
-        } else {
-            "undecided"
-        });
-        st
-    };
-    let mut tc = TestCase::new(format!("{path} :: drift {}", d.quantity), st);
-    tc.set_classname(path);
+    let name = format!("{path} :: drift {}", d.quantity);
     if d.status == CheckStatus::Pass {
-        tc.set_system_out(text);
+        let mut tc = Case::new(name, path, Status::Success);
+        tc.system_out = Some(text);
+        tc
+    } else {
+        let st = Status::Failure {
+            message: text,
+            ty: if d.status == CheckStatus::Fail {
+                "drift"
+            } else {
+                "undecided"
+            },
+            description: None,
+        };
+        Case::new(name, path, st)
     }
-    tc
 }
 
 fn first_line(s: &str) -> &str {
     s.lines().next().unwrap_or(s)
 }
 
-fn check_case(path: &str, c: &CheckOutcome, strict: bool) -> TestCase {
+fn check_case(path: &str, c: &CheckOutcome, strict: bool) -> Case {
     let shown = if c.shown.is_empty() {
         c.expr.as_str()
     } else {
@@ -336,22 +568,150 @@ fn check_case(path: &str, c: &CheckOutcome, strict: bool) -> TestCase {
         if let Some(h) = &c.hint {
             detail.push_str(&format!("\nhint: {h}"));
         }
-        let mut st = TestCaseStatus::non_success(NonSuccessKind::Failure);
-        st.set_message(message());
-        st.set_type(match c.status {
-            CheckStatus::Undecided => "undecided",
-            _ => "fail",
-        });
-        st.set_description(detail);
-        st
+        Status::Failure {
+            message: message(),
+            ty: match c.status {
+                CheckStatus::Undecided => "undecided",
+                _ => "fail",
+            },
+            description: Some(detail),
+        }
     } else {
-        TestCaseStatus::success()
+        Status::Success
     };
-    let mut tc = TestCase::new(format!("{path} :: {}", c.id), status);
-    tc.set_classname(path);
+    let mut tc = Case::new(format!("{path} :: {}", c.id), path, status);
     if is_warning(c, strict) {
         // JUnit has no warning status; a CI reader still sees it in the case's output.
-        tc.set_system_out(format!("warning: {}", message()));
+        tc.system_out = Some(format!("warning: {}", message()));
     }
     tc
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Texts with everything the XML writer must treat like quick-junit: the five
+    /// escaped characters, line breaks, non-ASCII text, and what quick-junit strips
+    /// (ESC sequences, tabs, CRs, other C0 and C1 controls).
+    fn texts() -> Vec<String> {
+        let mut v: Vec<String> = [
+            "",
+            "plain",
+            "caps/C100f_w10.s1p :: c-in-band",
+            "q(band) min 2.46 at 3 GHz >= 3 & srf > 2 × band.hi",
+            "<tag attr=\"x\" other='y'>&amp;</tag>",
+            "line one\nline two\n",
+            "µ Ω – π ±",
+            "\u{1b}[31mred\u{1b}[0m",
+            "tab\there",
+            "cr\r\nlf",
+            "bell\u{7}",
+            "c1 \u{85} \u{9b}31m",
+            "del \u{7f}",
+            "\u{a0} no-break space (0xC2 0xA0 is kept)",
+        ]
+        .iter()
+        .map(|s| s.to_string())
+        .collect();
+        // every pair, so escapes sit next to each other and at both ends
+        let base = v.clone();
+        for a in &base {
+            for b in &base {
+                v.push(format!("{a}{b}"));
+            }
+        }
+        v
+    }
+
+    fn cases_of(t: &str, u: &str) -> Vec<Case> {
+        let mut out = vec![
+            Case::new(t.to_string(), u, Status::Success),
+            Case::new(
+                u.to_string(),
+                t,
+                Status::Failure {
+                    message: t.to_string(),
+                    ty: "fail",
+                    description: Some(u.to_string()),
+                },
+            ),
+            Case::new(
+                t.to_string(),
+                t,
+                Status::Failure {
+                    message: u.to_string(),
+                    ty: "drift",
+                    description: None,
+                },
+            ),
+            Case::new(
+                t.to_string(),
+                u,
+                Status::Error {
+                    message: u.to_string(),
+                    ty: "unreadable",
+                    description: Some(t.to_string()),
+                },
+            ),
+            Case::new(
+                u.to_string(),
+                u,
+                Status::Skipped {
+                    message: t.to_string(),
+                },
+            ),
+        ];
+        let mut with_out = Case::new(t.to_string(), u, Status::Success);
+        with_out.system_out = Some(u.to_string());
+        out.push(with_out);
+        let mut failed_out = out[1].clone();
+        failed_out.system_out = Some(t.to_string());
+        out.push(failed_out);
+        out
+    }
+
+    #[test]
+    fn own_case_writer_gives_quick_junits_bytes() {
+        let texts = texts();
+        let mut own = 0;
+        for (i, t) in texts.iter().enumerate() {
+            // a spread of partners keeps the run short but mixes every kind of text
+            for u in texts.iter().skip(i % 7).step_by(13) {
+                let cases = cases_of(t, u);
+                let want = Body::by_quick_junit(cases.clone());
+                let got = Body::of(cases.clone());
+                assert_eq!(
+                    String::from_utf8_lossy(&got.text),
+                    String::from_utf8_lossy(&want.text),
+                    "{t:?} / {u:?}"
+                );
+                assert_eq!(
+                    (got.tests, got.failures, got.errors, got.skipped),
+                    (want.tests, want.failures, want.errors, want.skipped)
+                );
+                // the cases quick-junit keeps as they are: the own writer alone
+                for c in cases.into_iter().filter(Case::is_clean) {
+                    let mut text = Vec::new();
+                    c.write(&mut text);
+                    assert_eq!(text, Body::by_quick_junit(vec![c]).text, "{t:?} / {u:?}");
+                    own += 1;
+                }
+            }
+        }
+        assert!(own > 1000, "the own writer was checked on {own} cases");
+    }
+
+    #[test]
+    fn clean_means_quick_junit_keeps_the_text() {
+        for t in texts() {
+            let kept = quick_junit::XmlString::new(&t).as_str() == t;
+            assert_eq!(kept_by_quick_junit(&t), kept, "{t:?}");
+        }
+        for c in (0u32..0x800).filter_map(char::from_u32) {
+            let t = format!("a{c}b");
+            let kept = quick_junit::XmlString::new(&t).as_str() == t;
+            assert_eq!(kept_by_quick_junit(&t), kept, "U+{:04X}", c as u32);
+        }
+    }
 }

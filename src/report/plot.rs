@@ -14,7 +14,7 @@ use std::fmt::Write as _;
 
 use crate::figures::{Kind, ViewFigures};
 use crate::model::LossBand;
-use crate::units::{eng, push_fixed, sig3, Fixed};
+use crate::units::{eng, push_eng, push_fixed, push_sig3};
 use crate::verdict::PlotData;
 
 /// Points kept per part by [`plot_data`] (before the per-chart line simplification):
@@ -104,7 +104,7 @@ pub fn round_sig(v: f64, digits: i32) -> f64 {
     if v == 0.0 || !v.is_finite() {
         return v;
     }
-    let e = v.abs().log10().floor() as i32;
+    let e = floor_log10(v.abs());
     let scale = 10f64.powi(digits - 1 - e);
     let r = (v * scale).round() / scale;
     if r.is_finite() {
@@ -112,6 +112,37 @@ pub fn round_sig(v: f64, digits: i32) -> f64 {
     } else {
         v
     }
+}
+
+/// `a.log10().floor() as i32` for a finite `a` > 0, by comparing with powers of ten: a
+/// plot's numbers are rounded by [`round_sig`] one by one, and `log10` was most of
+/// that. Within 1e-12 (relative) of a power of ten it returns what `log10` gives,
+/// which can differ from the exact answer there; elsewhere `log10`'s error (under an
+/// ulp, below 1e-13 here) cannot move it across an integer, so both agree.
+fn floor_log10(a: f64) -> i32 {
+    /// 10^k for k = −40 … 40
+    const P10: [f64; 81] = [
+        1e-40, 1e-39, 1e-38, 1e-37, 1e-36, 1e-35, 1e-34, 1e-33, 1e-32, 1e-31, 1e-30, 1e-29, 1e-28,
+        1e-27, 1e-26, 1e-25, 1e-24, 1e-23, 1e-22, 1e-21, 1e-20, 1e-19, 1e-18, 1e-17, 1e-16, 1e-15,
+        1e-14, 1e-13, 1e-12, 1e-11, 1e-10, 1e-9, 1e-8, 1e-7, 1e-6, 1e-5, 1e-4, 1e-3, 1e-2, 1e-1,
+        1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+        1e17, 1e18, 1e19, 1e20, 1e21, 1e22, 1e23, 1e24, 1e25, 1e26, 1e27, 1e28, 1e29, 1e30, 1e31,
+        1e32, 1e33, 1e34, 1e35, 1e36, 1e37, 1e38, 1e39, 1e40,
+    ];
+    let by_log = |a: f64| a.log10().floor() as i32;
+    if !(1e-38..=1e38).contains(&a) {
+        return by_log(a);
+    }
+    // floor(e₂·log₁₀2), with 78913/2¹⁸ for log₁₀2 (exact for |e₂| < 1700): the answer
+    // is this or one more, as a spans less than a factor of two
+    let e2 = ((a.to_bits() >> 52) & 0x7ff) as i32 - 1023;
+    let est = (e2 * 78913) >> 18;
+    let at = |k: i32| P10[(k + 40) as usize];
+    let e = if a >= at(est + 1) { est + 1 } else { est };
+    if a < at(e) * (1.0 + 1e-12) || a > at(e + 1) * (1.0 - 1e-12) {
+        return by_log(a);
+    }
+    e
 }
 
 /// Indices of the points to keep when drawing `series` (all on the grid `freq`, which
@@ -439,26 +470,6 @@ const RIGHT: f64 = 14.0;
 const TOP: f64 = 30.0;
 const STRIP_H: f64 = 14.0;
 
-/// Text escaped for an attribute or element, written straight into the output.
-struct Esc<'a>(&'a str);
-
-impl std::fmt::Display for Esc<'_> {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        let mut rest = self.0;
-        while let Some(i) = rest.find(['&', '<', '>', '"']) {
-            f.write_str(&rest[..i])?;
-            f.write_str(match rest.as_bytes()[i] {
-                b'&' => "&amp;",
-                b'<' => "&lt;",
-                b'>' => "&gt;",
-                _ => "&quot;",
-            })?;
-            rest = &rest[i + 1..];
-        }
-        f.write_str(rest)
-    }
-}
-
 /// A value range for values that may shoot off near a resonance: the extremes of the
 /// values below `cutoff` (Hz, when given), widened a little, with 0 included when the
 /// data come near it.
@@ -497,16 +508,195 @@ pub fn auto_range(
     Some((if lo == 0.0 { 0.0 } else { lo - pad }, hi + pad))
 }
 
-/// A screen coordinate with one decimal: the text of `{:.1}` (see [`Fixed`]).
-fn px(v: f64) -> Fixed {
-    Fixed(v, 1)
+/// A screen coordinate with one decimal, appended to `o`: the text of `{:.1}`.
+fn push_px(o: &mut String, v: f64) {
+    push_fixed(o, v, 1);
 }
+
+/// A layout constant (a whole number of px), appended as `{}` prints it.
+fn push_whole(o: &mut String, v: f64) {
+    if v.fract() == 0.0 && v.abs() < 1e15 {
+        // `{:.0}` of a whole number is its `{}`
+        push_fixed(o, v, 0);
+    } else {
+        let _ = write!(o, "{v}");
+    }
+}
+
+/// Text escaped for an attribute or element (`& < > "`), appended to `o`.
+fn push_esc(o: &mut String, s: &str) {
+    let mut rest = s;
+    while let Some(i) = rest
+        .bytes()
+        .position(|b| matches!(b, b'&' | b'<' | b'>' | b'"'))
+    {
+        o.push_str(&rest[..i]);
+        o.push_str(match rest.as_bytes()[i] {
+            b'&' => "&amp;",
+            b'<' => "&lt;",
+            b'>' => "&gt;",
+            _ => "&quot;",
+        });
+        rest = &rest[i + 1..];
+    }
+    o.push_str(rest);
+}
+
+/// Appends the pieces of an element: literal text and numbers, so that a chart is
+/// written without `core::fmt`.
+macro_rules! put {
+    ($o:expr; $($piece:expr),+ $(,)?) => {{
+        let o: &mut String = $o;
+        $( Piece::put($piece, o); )+
+    }};
+}
+
+/// One piece of [`put!`]: text as it is, an [`Px`] coordinate, a [`Whole`] constant
+/// or [`Esc`]aped text.
+trait Piece {
+    fn put(self, o: &mut String);
+}
+
+impl Piece for &str {
+    fn put(self, o: &mut String) {
+        o.push_str(self);
+    }
+}
+
+impl Piece for &String {
+    fn put(self, o: &mut String) {
+        o.push_str(self);
+    }
+}
+
+/// A screen coordinate, one decimal.
+struct Px(f64);
+
+impl Piece for Px {
+    fn put(self, o: &mut String) {
+        push_px(o, self.0);
+    }
+}
+
+/// A layout constant, printed as `{}` prints it.
+struct Whole(f64);
+
+impl Piece for Whole {
+    fn put(self, o: &mut String) {
+        push_whole(o, self.0);
+    }
+}
+
+/// Text escaped for an attribute or element.
+struct Esc<'a>(&'a str);
+
+impl Piece for Esc<'_> {
+    fn put(self, o: &mut String) {
+        push_esc(o, self.0);
+    }
+}
+
+/// A frequency in engineering notation (`2.4 GHz`).
+struct Hz(f64);
+
+impl Piece for Hz {
+    fn put(self, o: &mut String) {
+        push_eng(o, self.0, "Hz");
+    }
+}
+
+/// What the charts on one frequency grid share: the log axis's mapping, the x of
+/// every point and the ticks with their grid lines and labels. A part's charts are
+/// all on its plot grid, so this is worked out once per part, not once per chart.
+struct XAxis {
+    fl: f64,
+    fh: f64,
+    ll: f64,
+    lh: f64,
+    /// the x of every frequency
+    xs: Vec<f64>,
+    /// the minor grid element, or nothing when there are no minor ticks
+    minor: String,
+    /// the major grid lines' part of the grid path
+    major: String,
+    /// each major tick's x and its label, escaped
+    labels: Vec<(f64, String)>,
+}
+
+impl XAxis {
+    /// The axis of `freq`; None when it cannot be plotted (fewer than two points, or
+    /// not positive and increasing at its ends).
+    fn of(freq: &[f64]) -> Option<XAxis> {
+        let n = freq.len();
+        if n < 2 || freq[0] <= 0.0 || freq[n - 1] <= freq[0] {
+            return None;
+        }
+        let (fl, fh) = (freq[0], freq[n - 1]);
+        let mut a = XAxis {
+            fl,
+            fh,
+            ll: fl.log10(),
+            lh: fh.log10(),
+            xs: Vec::new(),
+            minor: String::new(),
+            major: String::new(),
+            labels: Vec::new(),
+        };
+        a.xs = freq.iter().map(|&f| a.x(f)).collect();
+        let ticks = log_ticks(fl, fh);
+        if !ticks.minor.is_empty() {
+            a.minor.push_str("<path class=\"grid-minor\" d=\"");
+            for f in &ticks.minor {
+                let x = a.x(*f);
+                put!(&mut a.minor; "M", Px(x), VLINE);
+            }
+            a.minor.push_str("\"/>");
+        }
+        for f in &ticks.major {
+            let x = a.x(*f);
+            put!(&mut a.major; "M", Px(x), VLINE);
+            let mut label = String::new();
+            push_esc(&mut label, &freq_label(*f));
+            a.labels.push((x, label));
+        }
+        Some(a)
+    }
+
+    /// The x of frequency `f`.
+    fn x(&self, f: f64) -> f64 {
+        let (x0, x1) = (LEFT, W - RIGHT);
+        x0 + (f.log10() - self.ll) / (self.lh - self.ll) * (x1 - x0)
+    }
+}
+
+/// The rest of a vertical line from the top of the plot area to its bottom.
+const VLINE: &str = " 30V230";
 
 /// Render a chart as an `<svg>` element (no XML prolog; meant to sit inline in HTML).
 /// Colours come from CSS classes: `.s-*` curves, `.band`, `.mark`, `.m-conductor`,
 /// `.m-substrate`, `.m-resonance`, `.grid`, `.grid-minor`, `.frame`.
 pub fn svg_chart(c: &Chart) -> String {
-    let n = c.freq.len();
+    let mut o = String::with_capacity(8 * 1024);
+    chart_into(&mut o, c, XAxis::of(&c.freq).as_ref());
+    o
+}
+
+/// [`svg_chart`] of each chart appended to `o`, each between `before` and `after`. A
+/// chart on the same frequencies as the one before reuses its axis.
+pub fn svg_charts_into(o: &mut String, charts: &[Chart], before: &str, after: &str) {
+    let mut axis: Option<(&[f64], Option<XAxis>)> = None;
+    for c in charts {
+        if axis.as_ref().is_none_or(|(f, _)| *f != c.freq.as_slice()) {
+            axis = Some((&c.freq, XAxis::of(&c.freq)));
+        }
+        o.push_str(before);
+        chart_into(o, c, axis.as_ref().and_then(|(_, a)| a.as_ref()));
+        o.push_str(after);
+    }
+}
+
+/// Write chart `c` into `o`; `axis` is the axis of `c.freq` (None: not plottable).
+fn chart_into(o: &mut String, c: &Chart, axis: Option<&XAxis>) {
     let strip = !c.strip.is_empty();
     let plot_bottom = TOP + PLOT_H;
     let axis_y = plot_bottom + if strip { STRIP_H + 4.0 } else { 0.0 };
@@ -514,25 +704,16 @@ pub fn svg_chart(c: &Chart) -> String {
     let height = if strip { legend_y + 8.0 } else { axis_y + 30.0 };
     let (x0, x1) = (LEFT, W - RIGHT);
 
-    let mut o = String::with_capacity(8 * 1024);
-    let _ = write!(
-        o,
-        "<svg xmlns=\"http://www.w3.org/2000/svg\" id=\"{}\" class=\"chart\" viewBox=\"0 0 {W} {height}\" role=\"img\" aria-label=\"{}\">",
-        Esc(&c.id),
-        Esc(&c.title)
-    );
-    let _ = write!(o, "<title>{}</title>", Esc(&c.title));
-    if n < 2 || c.freq[0] <= 0.0 || c.freq[n - 1] <= c.freq[0] {
-        let _ = write!(
-            o,
-            "<text class=\"note\" x=\"{LEFT}\" y=\"{}\">not enough points to plot</text></svg>",
-            TOP + 20.0
-        );
-        return o;
-    }
-    let (fl, fh) = (c.freq[0], c.freq[n - 1]);
-    let (ll, lh) = (fl.log10(), fh.log10());
-    let xf = |f: f64| x0 + (f.log10() - ll) / (lh - ll) * (x1 - x0);
+    put!(o; "<svg xmlns=\"http://www.w3.org/2000/svg\" id=\"", Esc(&c.id),
+        "\" class=\"chart\" viewBox=\"0 0 ", Whole(W), " ", Whole(height),
+        "\" role=\"img\" aria-label=\"", Esc(&c.title), "\"><title>", Esc(&c.title), "</title>");
+    let Some(axis) = axis else {
+        put!(o; "<text class=\"note\" x=\"", Whole(LEFT), "\" y=\"", Whole(TOP + 20.0),
+            "\">not enough points to plot</text></svg>");
+        return;
+    };
+    let (fl, fh) = (axis.fl, axis.fh);
+    let xf = |f: f64| axis.x(f);
 
     let vals: Vec<&[Option<f64>]> = c.lines.iter().map(|l| l.values.as_slice()).collect();
     let (mut yl, mut yh) = c
@@ -550,24 +731,14 @@ pub fn svg_chart(c: &Chart) -> String {
     let yv = |v: f64| (plot_bottom - (v - yl) / (yh - yl) * PLOT_H).clamp(-1e4, 1e4);
 
     // title and legend on the top row
-    let _ = write!(
-        o,
-        "<text class=\"ctitle\" x=\"{x0}\" y=\"18\">{}</text>",
-        Esc(&c.title)
-    );
+    put!(o; "<text class=\"ctitle\" x=\"", Whole(x0), "\" y=\"18\">", Esc(&c.title), "</text>");
     let mut lx = x1;
     for l in c.lines.iter().rev() {
         let w = 30.0 + 7.0 * l.label.chars().count() as f64;
         lx -= w;
-        let _ = write!(
-            o,
-            "<g class=\"legend {}\"><line x1=\"{}\" y1=\"14\" x2=\"{}\" y2=\"14\"/><text x=\"{}\" y=\"18\">{}</text></g>",
-            Esc(&l.class),
-            px(lx),
-            px(lx + 18.0),
-            px(lx + 22.0),
-            Esc(&l.label)
-        );
+        put!(o; "<g class=\"legend ", Esc(&l.class), "\"><line x1=\"", Px(lx),
+            "\" y1=\"14\" x2=\"", Px(lx + 18.0), "\" y2=\"14\"/><text x=\"", Px(lx + 22.0),
+            "\" y=\"18\">", Esc(&l.label), "</text></g>");
     }
 
     // band
@@ -575,96 +746,50 @@ pub fn svg_chart(c: &Chart) -> String {
         let a = xf(b0.max(fl).min(fh));
         let b = xf(b1.max(fl).min(fh));
         if b > a {
-            let _ = write!(
-                o,
-                "<rect class=\"band\" x=\"{}\" y=\"{TOP}\" width=\"{}\" height=\"{PLOT_H}\"><title>band {} – {}</title></rect>",
-                px(a),
-                px(b - a),
-                eng(b0, "Hz"),
-                eng(b1, "Hz")
-            );
+            put!(o; "<rect class=\"band\" x=\"", Px(a), "\" y=\"", Whole(TOP), "\" width=\"",
+                Px(b - a), "\" height=\"", Whole(PLOT_H), "\"><title>band ", Hz(b0), " – ",
+                Hz(b1), "</title></rect>");
         }
     }
 
     // grid and ticks
-    let ticks = log_ticks(fl, fh);
-    // the constant parts of the grid lines, formatted once
-    let vline = format!(" {TOP}V{plot_bottom}");
-    let (hline_start, hline_end) = (format!("M{x0} "), format!("H{x1}"));
-    let mut minor = String::new();
-    for f in &ticks.minor {
-        minor.push('M');
-        push_fixed(&mut minor, xf(*f), 1);
-        minor.push_str(&vline);
-    }
-    if !minor.is_empty() {
-        let _ = write!(o, "<path class=\"grid-minor\" d=\"{minor}\"/>");
-    }
-    let mut major = String::new();
-    for f in &ticks.major {
-        major.push('M');
-        push_fixed(&mut major, xf(*f), 1);
-        major.push_str(&vline);
-    }
+    o.push_str(&axis.minor);
+    put!(o; "<path class=\"grid\" d=\"", &axis.major);
     for v in &yt {
-        major.push_str(&hline_start);
-        push_fixed(&mut major, yv(*v), 1);
-        major.push_str(&hline_end);
+        put!(o; "M", Whole(x0), " ", Px(yv(*v)), "H", Whole(x1));
     }
-    let _ = write!(o, "<path class=\"grid\" d=\"{major}\"/>");
-    let _ = write!(o, "<g class=\"xlabels\">");
-    for f in &ticks.major {
-        let _ = write!(
-            o,
-            "<text x=\"{}\" y=\"{}\">{}</text>",
-            px(xf(*f)),
-            px(axis_y + 16.0),
-            Esc(&freq_label(*f))
-        );
+    o.push_str("\"/><g class=\"xlabels\">");
+    for (x, label) in &axis.labels {
+        put!(o; "<text x=\"", Px(*x), "\" y=\"", Px(axis_y + 16.0), "\">", label, "</text>");
     }
-    let _ = write!(o, "</g>");
+    o.push_str("</g>");
     let max_abs = yt.iter().fold(0.0f64, |m, v| m.max(v.abs()));
     let (k, unit) = axis_scale(max_abs, &c.unit);
-    let _ = write!(o, "<g class=\"ylabels\">");
+    o.push_str("<g class=\"ylabels\">");
     for v in &yt {
-        let _ = write!(
-            o,
-            "<text x=\"{}\" y=\"{}\">{}</text>",
-            px(x0 - 5.0),
-            px(yv(*v) + 4.0),
-            sig3(*v / k)
-        );
+        put!(o; "<text x=\"", Px(x0 - 5.0), "\" y=\"", Px(yv(*v) + 4.0), "\">");
+        push_sig3(o, *v / k);
+        o.push_str("</text>");
     }
-    let _ = write!(o, "</g>");
+    o.push_str("</g>");
     if !unit.is_empty() {
-        let _ = write!(
-            o,
-            "<text class=\"yunit\" x=\"8\" y=\"{}\">{}</text>",
-            px(TOP - 6.0),
-            Esc(&unit)
-        );
+        put!(o; "<text class=\"yunit\" x=\"8\" y=\"", Px(TOP - 6.0), "\">", Esc(&unit), "</text>");
     }
 
     // curves, clipped to the plot area
-    let clip = format!("{}-clip", c.id);
-    let _ = write!(
-        o,
-        "<clipPath id=\"{}\"><rect x=\"{x0}\" y=\"{TOP}\" width=\"{}\" height=\"{PLOT_H}\"/></clipPath><g clip-path=\"url(#{})\">",
-        Esc(&clip),
-        px(x1 - x0),
-        Esc(&clip)
-    );
+    put!(o; "<clipPath id=\"", Esc(&c.id), "-clip\"><rect x=\"", Whole(x0), "\" y=\"", Whole(TOP),
+        "\" width=\"", Px(x1 - x0), "\" height=\"", Whole(PLOT_H),
+        "\"/></clipPath><g clip-path=\"url(#", Esc(&c.id), "-clip)\">");
     if yl < 0.0 && yh > 0.0 {
-        let _ = write!(o, "<path class=\"zero\" d=\"M{x0} {}H{x1}\"/>", px(yv(0.0)));
+        put!(o; "<path class=\"zero\" d=\"M", Whole(x0), " ", Px(yv(0.0)), "H", Whole(x1), "\"/>");
     }
     // each curve's path goes straight into `o` (taken back when it has no point);
     // the buffers serve every curve
-    let xs: Vec<f64> = c.freq.iter().map(|&f| xf(f)).collect();
-    let mut seg: Vec<(f64, f64)> = Vec::with_capacity(n);
+    let mut seg: Vec<(f64, f64)> = Vec::with_capacity(axis.xs.len());
     let mut rdp = Rdp::default();
     for l in &c.lines {
         let mark = o.len();
-        let _ = write!(o, "<path class=\"curve {}\" d=\"", Esc(&l.class));
+        put!(o; "<path class=\"curve ", Esc(&l.class), "\" d=\"");
         let path = o.len();
         let mut flush = |seg: &mut Vec<(f64, f64)>, o: &mut String| {
             let keep = rdp.keep(seg, 0.3);
@@ -675,27 +800,24 @@ pub fn svg_chart(c: &Chart) -> String {
                 .map(|(p, _)| p)
                 .enumerate()
             {
-                o.push_str(if j == 0 { "M" } else { " " });
-                push_fixed(o, x, 1);
-                o.push(' ');
-                push_fixed(o, y, 1);
+                put!(o; if j == 0 { "M" } else { " " }, Px(x), " ", Px(y));
             }
             seg.clear();
         };
-        for (&x, v) in xs.iter().zip(l.values.iter()) {
+        for (&x, v) in axis.xs.iter().zip(l.values.iter()) {
             match v {
                 Some(v) if v.is_finite() => seg.push((x, yv(*v))),
-                _ => flush(&mut seg, &mut o),
+                _ => flush(&mut seg, o),
             }
         }
-        flush(&mut seg, &mut o);
+        flush(&mut seg, o);
         if o.len() == path {
             o.truncate(mark);
         } else {
             o.push_str("\"/>");
         }
     }
-    let _ = write!(o, "</g>");
+    o.push_str("</g>");
 
     // marks; each label goes right of its line when it fits (else left), in the first
     // of four rows where it overlaps no other label
@@ -717,69 +839,42 @@ pub fn svg_chart(c: &Chart) -> String {
         rows[row].push((a, b));
         let ty = TOP + 11.0 + 12.0 * row as f64;
         let tx = if anchor == "end" { x - 3.0 } else { x + 3.0 };
-        let _ = write!(
-            o,
-            "<g class=\"mark {}\"><path d=\"M{}{vline}\"/><text x=\"{}\" y=\"{}\" text-anchor=\"{anchor}\">{}</text></g>",
-            Esc(&m.class),
-            px(x),
-            px(tx),
-            px(ty),
-            Esc(&m.label)
-        );
+        put!(o; "<g class=\"mark ", Esc(&m.class), "\"><path d=\"M", Px(x), VLINE,
+            "\"/><text x=\"", Px(tx), "\" y=\"", Px(ty), "\" text-anchor=\"", anchor, "\">",
+            Esc(&m.label), "</text></g>");
     }
 
     // loss strip
     if strip {
         let sy = plot_bottom + 3.0;
-        let _ = write!(o, "<g class=\"strip\">");
+        o.push_str("<g class=\"strip\">");
         for b in &c.strip {
             let a = xf(b.from.max(fl).min(fh));
             let e = xf(b.to.max(fl).min(fh));
             let w = (e - a).max(1.0);
-            let _ = write!(
-                o,
-                "<rect class=\"m-{}\" x=\"{}\" y=\"{}\" width=\"{}\" height=\"{STRIP_H}\"><title>{}: {} – {}</title></rect>",
-                b.mechanism.as_str(),
-                px(a),
-                px(sy),
-                px(w),
-                b.mechanism.as_str(),
-                eng(b.from, "Hz"),
-                eng(b.to, "Hz")
-            );
+            let mech = b.mechanism.as_str();
+            put!(o; "<rect class=\"m-", mech, "\" x=\"", Px(a), "\" y=\"", Px(sy), "\" width=\"",
+                Px(w), "\" height=\"", Whole(STRIP_H), "\"><title>", mech, ": ", Hz(b.from),
+                " – ", Hz(b.to), "</title></rect>");
         }
-        let _ = write!(o, "</g>");
+        o.push_str("</g>");
         let mut lx = x0;
-        let _ = write!(
-            o,
-            "<text class=\"slabel\" x=\"{}\" y=\"{}\">Q limited by:</text>",
-            px(lx),
-            px(legend_y)
-        );
+        put!(o; "<text class=\"slabel\" x=\"", Px(lx), "\" y=\"", Px(legend_y),
+            "\">Q limited by:</text>");
         lx += 96.0;
         for (m, word) in [
             ("conductor", "conductor loss"),
             ("substrate", "substrate loss"),
             ("resonance", "self-resonance"),
         ] {
-            let _ = write!(
-                o,
-                "<rect class=\"m-{m}\" x=\"{}\" y=\"{}\" width=\"12\" height=\"10\"/><text class=\"slabel\" x=\"{}\" y=\"{}\">{word}</text>",
-                px(lx),
-                px(legend_y - 9.0),
-                px(lx + 16.0),
-                px(legend_y)
-            );
+            put!(o; "<rect class=\"m-", m, "\" x=\"", Px(lx), "\" y=\"", Px(legend_y - 9.0),
+                "\" width=\"12\" height=\"10\"/><text class=\"slabel\" x=\"", Px(lx + 16.0),
+                "\" y=\"", Px(legend_y), "\">", word, "</text>");
             lx += 124.0;
         }
     }
-    let _ = write!(
-        o,
-        "<rect class=\"frame\" x=\"{x0}\" y=\"{TOP}\" width=\"{}\" height=\"{PLOT_H}\"/>",
-        px(x1 - x0)
-    );
-    o.push_str("</svg>");
-    o
+    put!(o; "<rect class=\"frame\" x=\"", Whole(x0), "\" y=\"", Whole(TOP), "\" width=\"",
+        Px(x1 - x0), "\" height=\"", Whole(PLOT_H), "\"/></svg>");
 }
 
 #[cfg(test)]
@@ -789,13 +884,33 @@ mod tests {
     #[test]
     fn coordinates_print_as_one_decimal_like_std() {
         // the same text as std's `{:.1}`, ties included (units::tests covers the rest)
+        let px = |v: f64| {
+            let mut s = String::new();
+            push_px(&mut s, v);
+            s
+        };
         for i in -20_000..20_000 {
             for v in [i as f64 * 0.0137 + 0.003, i as f64 * 0.05, i as f64 / 64.0] {
-                assert_eq!(px(v).to_string(), format!("{v:.1}"), "{v}");
+                assert_eq!(px(v), format!("{v:.1}"), "{v}");
             }
         }
-        assert_eq!(px(1e300).to_string(), format!("{:.1}", 1e300));
-        assert_eq!(px(-3.96).to_string(), "-4.0");
+        assert_eq!(px(1e300), format!("{:.1}", 1e300));
+        assert_eq!(px(-3.96), "-4.0");
+    }
+
+    #[test]
+    fn layout_constants_and_escapes_print_like_std() {
+        for v in [
+            0.0, -0.0, 8.0, 30.0, 58.0, 626.0, 260.0, 290.0, 1e14, -3.0, 0.5, 1e300,
+        ] {
+            let mut s = String::new();
+            push_whole(&mut s, v);
+            assert_eq!(s, format!("{v}"), "{v}");
+        }
+        assert_eq!(VLINE, format!(" {TOP}V{}", TOP + PLOT_H));
+        let mut s = String::new();
+        push_esc(&mut s, "a&b<c>d\"e'f µ");
+        assert_eq!(s, "a&amp;b&lt;c&gt;d&quot;e'f µ");
     }
 
     #[test]
@@ -921,6 +1036,58 @@ mod tests {
         let mut bent = pts.clone();
         bent[50].1 += 5.0;
         assert!(simplify(&bent, 0.1).contains(&bent[50]));
+    }
+
+    #[test]
+    fn floor_log10_is_the_floor_of_log10() {
+        let mut vals = vec![
+            5e-324,
+            f64::MIN_POSITIVE,
+            1e-300,
+            1e-39,
+            1e-38,
+            1e38,
+            1e39,
+            1e300,
+        ];
+        for k in -45..=45 {
+            let p = 10f64.powi(k);
+            for q in [
+                p,
+                10f64.powf(k as f64),
+                format!("1e{k}").parse().unwrap_or(p),
+            ] {
+                let mut v = q;
+                for _ in 0..4 {
+                    v = v.next_up();
+                    vals.push(v);
+                }
+                v = q;
+                for _ in 0..4 {
+                    v = v.next_down();
+                    vals.push(v);
+                }
+                for r in [1e-13, 1e-12, 2e-12, 1e-11, 1e-6, 0.5, 2.0, 3.0, 9.99] {
+                    vals.extend([q, q * (1.0 + r), q * (1.0 - r.min(0.5))]);
+                }
+            }
+        }
+        let mut state = 0x2545_f491_4f6c_dd1du64;
+        for _ in 0..200_000 {
+            // xorshift64: magnitudes over the whole range, and over the plots' range
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            let v = f64::from_bits(state >> 1);
+            if v.is_finite() && v > 0.0 {
+                vals.push(v);
+            }
+            let u = (state >> 11) as f64 / (1u64 << 53) as f64;
+            vals.push(10f64.powf(u * 80.0 - 40.0));
+        }
+        for v in vals {
+            assert_eq!(floor_log10(v), v.log10().floor() as i32, "{v:e}");
+        }
     }
 
     #[test]
