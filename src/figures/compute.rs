@@ -5,7 +5,7 @@ use std::collections::BTreeMap;
 use nalgebra::DMatrix;
 use rayon::prelude::*;
 
-use super::grid::{derivative, derivative_alt, fin, first_fall, peak, rising_zero};
+use super::grid::{fin, first_fall, peak, rising_zero, Stencil};
 use super::{DataChecks, Kind, ViewFigures};
 use crate::network::convert::magnitude;
 use crate::network::{Network, View, C64};
@@ -139,19 +139,22 @@ fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
 /// - the impedance form: dY/dω = −Z′/Z², so ω·dB/dω = −ω·Im(Z′/Z²), where Z of a
 ///   coil well below resonance is nearly R + jωL (exact for a series R-L).
 ///
-/// Both use the three-point non-uniform derivative ([`derivative`]); at each point
-/// the form with the smaller estimated truncation error (the disagreement with the
-/// neighbouring stencil, [`derivative_alt`], carried to ω·dB/dω) is used. This
+/// Both use the three-point non-uniform derivative ([`super::grid::derivative`]); at
+/// each point the form with the smaller estimated truncation error (the disagreement
+/// with the neighbouring stencil, [`super::grid::derivative_alt`], carried to ω·dB/dω)
+/// is used. This
 /// matters where q is small and the numerator cancels, e.g. the first points of a
 /// sweep that starts low with a coarse step.
 fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
     let b: Curve = y.iter().map(|v| fin(v.im)).collect();
     let p: Curve = y.iter().zip(w).map(|(v, &w)| fin(w * v.im)).collect();
-    let (dp, dp2) = (derivative(w, &p), derivative_alt(w, &p));
+    // the stencils' weights depend on the grid only: once for the three curves
+    let (st, st2) = (Stencil::new(w), Stencil::new_alt(w));
+    let (dp, dp2) = (st.apply(&p), st2.apply(&p));
     let zr: Curve = z.iter().map(|z| z.map(|z| z.re)).collect();
     let zi: Curve = z.iter().map(|z| z.map(|z| z.im)).collect();
-    let (dr, dr2) = (derivative(w, &zr), derivative_alt(w, &zr));
-    let (di, di2) = (derivative(w, &zi), derivative_alt(w, &zi));
+    let (dr, dr2) = (st.apply(&zr), st2.apply(&zr));
+    let (di, di2) = (st.apply(&zi), st2.apply(&zi));
     (0..w.len())
         .map(|i| {
             let y_form = dp[i].zip(b[i]).map(|(d, b)| d - b);
