@@ -446,8 +446,19 @@ impl Refs {
 /// operations, so the same bits, without the allocation and the per-block reference
 /// checks (the 2-port path of every `check`).
 pub fn s_to_y_2(s: &[C64; 4], scale: &[f64; 4]) -> Option<[C64; 4]> {
-    let mut out = [C64::new(0.0, 0.0); 4];
-    (all_finite(s) && from_s_into(s, 2, scale, false, false, &mut [], &mut out)).then_some(out)
+    // [`from_s_into`]'s 2-port arm written out on arrays: the closed form, the factors,
+    // the finiteness test, in its order
+    if !all_finite(s) {
+        return None;
+    }
+    let x = from_s_2(s, -1.0)?;
+    let out = [
+        x[0] * scale[0],
+        x[1] * scale[1],
+        x[2] * scale[2],
+        x[3] * scale[3],
+    ];
+    all_finite(&out).then_some(out)
 }
 
 /// Converts the blocks of one network into buffers it owns: [`s_to_y`] and
@@ -701,6 +712,44 @@ mod tests {
             }
         }
         assert!(singular >= 6, "{singular} singular cases");
+    }
+
+    #[test]
+    fn stack_two_port_y_has_the_bits_of_s_to_y() {
+        let mut state = 0x2b0u64;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
+        };
+        let z0 = [50.0, 75.0];
+        let scale = Refs::new(&z0).and_then(|r| r.y2()).expect("2-port factors");
+        let mut cases: Vec<[C64; 4]> = (0..500)
+            .map(|_| {
+                [
+                    c(next(), next()),
+                    c(next(), next()),
+                    c(next(), next()),
+                    c(next(), next()),
+                ]
+            })
+            .collect();
+        // I + S singular (a shunt short), a NaN, and a zero block
+        cases.push([c(-1.0, 0.0), c(0.0, 0.0), c(0.0, 0.0), c(0.3, 0.0)]);
+        cases.push([c(f64::NAN, 0.0), c(0.1, 0.0), c(0.1, 0.0), c(0.2, 0.0)]);
+        cases.push([c(0.0, 0.0); 4]);
+        let mut none = 0;
+        for (i, s) in cases.iter().enumerate() {
+            let stack = s_to_y_2(s, &scale);
+            let heap = s_to_y(s, 2, &z0);
+            let bits = |v: &[C64]| -> Vec<(u64, u64)> {
+                v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
+            };
+            assert_eq!(stack.map(|v| bits(&v)), heap.map(|v| bits(&v)), "case {i}");
+            none += usize::from(stack.is_none());
+        }
+        assert_eq!(none, 2);
     }
 
     #[test]
