@@ -113,14 +113,32 @@ fn solve_fixed<const N: usize, const M: usize>(a_in: &mut [C64], x_out: &mut [C6
     let zero = C64::new(0.0, 0.0);
     let mut a = [[zero; N]; N];
     let mut x = [[zero; M]; N];
+    for r in 0..N {
+        a[r].copy_from_slice(&a_in[r * N..(r + 1) * N]);
+        x[r].copy_from_slice(&x_out[r * M..(r + 1) * M]);
+    }
+    if !solve_arrays(a, &mut x) {
+        return false;
+    }
+    for r in 0..N {
+        x_out[r * M..(r + 1) * M].copy_from_slice(&x[r]);
+    }
+    all_finite(x_out)
+}
+
+/// The body of [`solve_fixed`] on arrays: X is overwritten by the solution (not yet
+/// tested for finiteness); false when A is singular.
+#[inline(always)]
+#[allow(clippy::needless_range_loop, clippy::assign_op_pattern)]
+fn solve_arrays<const N: usize, const M: usize>(
+    mut a: [[C64; N]; N],
+    x: &mut [[C64; M]; N],
+) -> bool {
+    let zero = C64::new(0.0, 0.0);
     let mut scale = 0.0f64;
     for r in 0..N {
         for j in 0..N {
-            a[r][j] = a_in[r * N + j];
             scale = scale.max(magnitude(a[r][j]));
-        }
-        for j in 0..M {
-            x[r][j] = x_out[r * M + j];
         }
     }
     if !(scale.is_finite()) || scale == 0.0 {
@@ -169,10 +187,7 @@ fn solve_fixed<const N: usize, const M: usize>(a_in: &mut [C64], x_out: &mut [C6
             }
         }
     }
-    for r in 0..N {
-        x_out[r * M..(r + 1) * M].copy_from_slice(&x[r]);
-    }
-    all_finite(x_out)
+    true
 }
 
 #[inline(always)]
@@ -397,6 +412,8 @@ fn from_s_into(
             Some(x) => out.copy_from_slice(&x),
             None => return false,
         },
+        (3, false) => return from_s_fixed::<3>(s, scale, sa, sb, out),
+        (4, false) => return from_s_fixed::<4>(s, scale, sa, sb, out),
         _ => {
             eye_plus_into(s, n, sa, work);
             eye_plus_into(s, n, sb, out);
@@ -407,6 +424,46 @@ fn from_s_into(
     }
     for (o, f) in out.iter_mut().zip(scale) {
         *o = *o * *f;
+    }
+    all_finite(out)
+}
+
+/// [`from_s_into`]'s LU arm for N known, on arrays from the start (no scratch
+/// slices, no copies in and out of the solve): I + sa·S and I + sb·S as
+/// [`eye_plus_into`] forms them, [`solve_arrays`], the factors, the finiteness tests,
+/// so the bits of the slice path (`fixed_s_to_z_y_have_the_bits_of_the_slice_path`).
+#[allow(clippy::needless_range_loop, clippy::assign_op_pattern)]
+fn from_s_fixed<const N: usize>(
+    s: &[C64],
+    scale: &[f64],
+    sa: f64,
+    sb: f64,
+    out: &mut [C64],
+) -> bool {
+    if s.len() != N * N || scale.len() != N * N || out.len() != N * N {
+        return false;
+    }
+    let zero = C64::new(0.0, 0.0);
+    let (mut a, mut x) = ([[zero; N]; N], [[zero; N]; N]);
+    for r in 0..N {
+        for j in 0..N {
+            a[r][j] = s[r * N + j] * sa;
+            x[r][j] = s[r * N + j] * sb;
+        }
+        a[r][r] = a[r][r] + one();
+        x[r][r] = x[r][r] + one();
+    }
+    if !solve_arrays(a, &mut x) {
+        return false;
+    }
+    // the solve's finiteness test, then the factors' (as the slice path does)
+    if !x.iter().all(|row| all_finite(row)) {
+        return false;
+    }
+    for r in 0..N {
+        for j in 0..N {
+            out[r * N + j] = x[r][j] * scale[r * N + j];
+        }
     }
     all_finite(out)
 }
@@ -712,6 +769,64 @@ mod tests {
             }
         }
         assert!(singular >= 6, "{singular} singular cases");
+    }
+
+    #[test]
+    fn fixed_s_to_z_y_have_the_bits_of_the_slice_path() {
+        let mut state = 0x3f4u64;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
+        };
+        for n in [3usize, 4] {
+            let z0: Vec<f64> = (0..n).map(|k| 25.0 * (k + 1) as f64).collect();
+            let refs = Refs::new(&z0).expect("references");
+            let mut blocks: Vec<Vec<C64>> = (0..300)
+                .map(|_| (0..n * n).map(|_| c(next(), next()) * 0.6).collect())
+                .collect();
+            // I − S singular (no Z) and I + S singular (no Y)
+            let mut eye = vec![c(0.0, 0.0); n * n];
+            for i in 0..n {
+                eye[i * n + i] = c(1.0, 0.0);
+            }
+            blocks.push(eye.clone());
+            blocks.push(eye.iter().map(|v| -v).collect());
+            let mut none = 0;
+            for (i, s) in blocks.iter().enumerate() {
+                for to_z in [false, true] {
+                    let (sa, sb) = if to_z { (-1.0, 1.0) } else { (1.0, -1.0) };
+                    let f = if to_z { &refs.z } else { &refs.y };
+                    let mut fixed = vec![c(0.0, 0.0); n * n];
+                    let ok1 = match n {
+                        3 => from_s_fixed::<3>(s, f, sa, sb, &mut fixed),
+                        _ => from_s_fixed::<4>(s, f, sa, sb, &mut fixed),
+                    };
+                    // the slice path: eye_plus_into twice, the general solve body
+                    let (mut work, mut slow) = (vec![c(0.0, 0.0); n * n], vec![c(0.0, 0.0); n * n]);
+                    eye_plus_into(s, n, sa, &mut work);
+                    eye_plus_into(s, n, sb, &mut slow);
+                    let mut ok2 = solve_body(&mut work, &mut slow, n, n);
+                    if ok2 {
+                        for (o, v) in slow.iter_mut().zip(f) {
+                            *o *= *v;
+                        }
+                        ok2 = all_finite(&slow);
+                    }
+                    assert_eq!(ok1, ok2, "n={n} block {i} to_z {to_z}");
+                    if ok1 {
+                        let bits = |v: &[C64]| -> Vec<(u64, u64)> {
+                            v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
+                        };
+                        assert_eq!(bits(&fixed), bits(&slow), "n={n} block {i} to_z {to_z}");
+                    } else {
+                        none += 1;
+                    }
+                }
+            }
+            assert!(none >= 2, "n={n}: {none}");
+        }
     }
 
     #[test]
