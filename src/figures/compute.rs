@@ -567,6 +567,8 @@ fn gram_below<const N: usize>(s: &[C64], t: f64) -> bool {
 
 /// The worst |S_ij − S_ji| of a block, by [`crate::network::convert::magnitude`]
 /// (agrees with the one by `norm`, to within [`ESTIMATE_REL`], 0 exactly when it is).
+// inline: [`skipping_estimates`] calls it with N known, and the loops then unroll
+#[inline(always)]
 fn reciprocity_estimate(s: &[C64], n: usize) -> f64 {
     let mut r = 0.0f64;
     for i in 0..n {
