@@ -5,7 +5,7 @@ use std::collections::BTreeMap;
 use nalgebra::DMatrix;
 use rayon::prelude::*;
 
-use super::grid::{derivative, derivative_alt, fin, first_fall, peak, rising_zero};
+use super::grid::{fin, first_fall, peak, rising_zero, Stencil};
 use super::{DataChecks, Kind, ViewFigures};
 use crate::network::convert::magnitude;
 use crate::network::{Network, View, C64};
@@ -139,19 +139,22 @@ fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
 /// - the impedance form: dY/dω = −Z′/Z², so ω·dB/dω = −ω·Im(Z′/Z²), where Z of a
 ///   coil well below resonance is nearly R + jωL (exact for a series R-L).
 ///
-/// Both use the three-point non-uniform derivative ([`derivative`]); at each point
-/// the form with the smaller estimated truncation error (the disagreement with the
-/// neighbouring stencil, [`derivative_alt`], carried to ω·dB/dω) is used. This
+/// Both use the three-point non-uniform derivative ([`super::grid::derivative`]); at
+/// each point the form with the smaller estimated truncation error (the disagreement
+/// with the neighbouring stencil, [`super::grid::derivative_alt`], carried to ω·dB/dω)
+/// is used. This
 /// matters where q is small and the numerator cancels, e.g. the first points of a
 /// sweep that starts low with a coarse step.
 fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
     let b: Curve = y.iter().map(|v| fin(v.im)).collect();
     let p: Curve = y.iter().zip(w).map(|(v, &w)| fin(w * v.im)).collect();
-    let (dp, dp2) = (derivative(w, &p), derivative_alt(w, &p));
+    // the stencils' weights depend on the grid only: once for the three curves
+    let (st, st2) = (Stencil::new(w), Stencil::new_alt(w));
+    let (dp, dp2) = (st.apply(&p), st2.apply(&p));
     let zr: Curve = z.iter().map(|z| z.map(|z| z.re)).collect();
     let zi: Curve = z.iter().map(|z| z.map(|z| z.im)).collect();
-    let (dr, dr2) = (derivative(w, &zr), derivative_alt(w, &zr));
-    let (di, di2) = (derivative(w, &zi), derivative_alt(w, &zi));
+    let (dr, dr2) = (st.apply(&zr), st2.apply(&zr));
+    let (di, di2) = (st.apply(&zi), st2.apply(&zi));
     (0..w.len())
         .map(|i| {
             let y_form = dp[i].zip(b[i]).map(|(d, b)| d - b);
@@ -424,17 +427,149 @@ fn gram_jacobi<const N: usize>(s: &[C64]) -> Option<f64> {
     None
 }
 
-/// σ_max(S) of a block: [`sigma_max_gram`] where it applies, else [`sigma_max`].
+/// σ_max(S) of a block: [`sigma_max_gram`] where it applies, the unscaled closed form
+/// for a 2-port of ordinary size ([`sigma_max_2_unscaled`]), else [`sigma_max`].
 /// Agrees with [`sigma_max`] to within [`ESTIMATE_REL`], and is 0 exactly when it is.
+#[inline]
 fn sigma_max_estimate(s: &[C64], n: usize) -> Option<f64> {
     match n {
+        2 => sigma_max_2_unscaled(s).or_else(|| sigma_max(s, n)),
         0..=2 => sigma_max(s, n),
         _ => sigma_max_gram(s, n).or_else(|| sigma_max(s, n)),
     }
 }
 
+/// Blocks whose largest component lies in this range are squared and summed as they
+/// are: no square can overflow or underflow, and no scaling is needed.
+const UNSCALED: std::ops::RangeInclusive<f64> = 1e-100..=1e100;
+
+/// The largest |re|, |im| of a block; NaN when any component is not finite.
+fn largest_component(s: &[C64]) -> f64 {
+    let mut m = 0.0f64;
+    for c in s {
+        if !(c.re.is_finite() && c.im.is_finite()) {
+            return f64::NAN;
+        }
+        m = m.max(c.re.abs()).max(c.im.abs());
+    }
+    m
+}
+
+/// [`sigma_max`]'s 2-port closed form without its scaling by the largest entry (four
+/// `hypot` calls and four divisions per point): the same sums of squares, unscaled,
+/// for blocks of ordinary size ([`UNSCALED`]); None otherwise. Within a few ulps of
+/// [`sigma_max`] (the terms are all sums of non-negative numbers but for the
+/// half-difference, whose error is damped by the square root), so an estimate.
+fn sigma_max_2_unscaled(s: &[C64]) -> Option<f64> {
+    let s = s.get(..4)?;
+    if !UNSCALED.contains(&largest_component(s)) {
+        return None;
+    }
+    let [a, b, c, d] = [s[0], s[1], s[2], s[3]];
+    let g11 = a.norm_sqr() + b.norm_sqr();
+    let g22 = c.norm_sqr() + d.norm_sqr();
+    let g12 = a * c.conj() + b * d.conj();
+    let half = 0.5 * (g11 - g22);
+    let lambda = 0.5 * (g11 + g22) + (half * half + g12.norm_sqr()).sqrt();
+    fin(lambda.sqrt())
+}
+
+/// The largest squared column norm of an N×N block, a lower bound of σ_max² (a
+/// column norm is ‖S e_j‖ ≤ σ_max); None unless the block is finite with
+/// ‖S‖²_F ≤ [`GRAM_MAX`], the blocks [`gram_below`] may decide.
+fn column_bound<const N: usize>(s: &[C64]) -> Option<f64> {
+    let s = s.get(..N * N)?;
+    let mut cols = [0.0f64; N];
+    for (k, c) in s.iter().enumerate() {
+        cols[k % N] += c.re * c.re + c.im * c.im;
+    }
+    let total: f64 = cols.iter().sum();
+    if total.is_nan() || total > GRAM_MAX {
+        return None;
+    }
+    Some(cols.iter().copied().fold(0.0, f64::max))
+}
+
+/// Largest ‖S‖²_F of a block [`gram_below`] decides: no entry of SᴴS can overflow.
+const GRAM_MAX: f64 = 1e200;
+
+/// Smallest bound t [`gram_below`] is asked about: squares that underflow (below
+/// 1e-300) are then far below t's rounding.
+const GRAM_T_MIN: f64 = 1e-200;
+
+/// Whether λ_max(SᴴS) < t for an N×N block with ‖S‖²_F ≤ [`GRAM_MAX`] and
+/// t ≥ [`GRAM_T_MIN`], decided by an LDLᴴ factorisation of t·I − SᴴS (Golub & Van
+/// Loan, *Matrix Computations*, §4.1): true only when every pivot comes out positive.
+/// Far cheaper than Jacobi. A computed factorisation with positive pivots is exact for
+/// t·I − SᴴS + E with ‖E‖ ≤ about 4N·u·t (u the unit roundoff; Higham, *Accuracy and
+/// Stability of Numerical Algorithms*, §10.1), and forming SᴴS adds about N·u·‖S‖²_F,
+/// so a true answer means λ_max < t·(1 + 1e-13) — the caller leaves a far wider margin.
+// the factorisation reads and writes by index: indices say it plainest
+#[allow(clippy::needless_range_loop)]
+fn gram_below<const N: usize>(s: &[C64], t: f64) -> bool {
+    let Some(s) = s.get(..N * N) else {
+        return false;
+    };
+    if t.is_nan() || t < GRAM_T_MIN {
+        return false;
+    }
+    // the columns of S, real and imaginary parts apart (plain real arithmetic)
+    let (mut re, mut im) = ([[0.0f64; N]; N], [[0.0f64; N]; N]);
+    for (k, c) in s.iter().enumerate() {
+        re[k % N][k / N] = c.re;
+        im[k % N][k / N] = c.im;
+    }
+    // M = t·I − G, G = SᴴS: g_ij = Σ_k conj(s_ki)·s_kj; lower triangle only
+    let (mut mr, mut mi) = ([[0.0f64; N]; N], [[0.0f64; N]; N]);
+    for i in 0..N {
+        for j in 0..i {
+            let (mut gr, mut gi) = (0.0, 0.0);
+            for k in 0..N {
+                gr += re[i][k] * re[j][k] + im[i][k] * im[j][k];
+                gi += re[i][k] * im[j][k] - im[i][k] * re[j][k];
+            }
+            mr[i][j] = -gr;
+            mi[i][j] = -gi;
+        }
+        let mut gii = 0.0;
+        for k in 0..N {
+            gii += re[i][k] * re[i][k] + im[i][k] * im[i][k];
+        }
+        mr[i][i] = t - gii;
+    }
+    // M = L D Lᴴ, unit lower L: d_j = m_jj − Σ_k |l_jk|² d_k and
+    // l_ij = (m_ij − Σ_k l_ik d_k conj(l_jk)) / d_j; pivots d_j must be > 0
+    let mut d = [0.0f64; N];
+    let (mut lr, mut li) = ([[0.0f64; N]; N], [[0.0f64; N]; N]);
+    for j in 0..N {
+        let mut dj = mr[j][j];
+        for k in 0..j {
+            dj -= (lr[j][k] * lr[j][k] + li[j][k] * li[j][k]) * d[k];
+        }
+        if dj.is_nan() || dj <= 0.0 {
+            return false;
+        }
+        d[j] = dj;
+        let inv = 1.0 / dj;
+        for i in j + 1..N {
+            let (mut vr, mut vi) = (mr[i][j], mi[i][j]);
+            for k in 0..j {
+                // l_ik·conj(l_jk)·d_k
+                let (a, b) = (lr[i][k] * d[k], li[i][k] * d[k]);
+                vr -= a * lr[j][k] + b * li[j][k];
+                vi -= b * lr[j][k] - a * li[j][k];
+            }
+            lr[i][j] = vr * inv;
+            li[i][j] = vi * inv;
+        }
+    }
+    true
+}
+
 /// The worst |S_ij − S_ji| of a block, by [`crate::network::convert::magnitude`]
 /// (agrees with the one by `norm`, to within [`ESTIMATE_REL`], 0 exactly when it is).
+// inline: [`skipping_estimates`] calls it with N known, and the loops then unroll
+#[inline(always)]
 fn reciprocity_estimate(s: &[C64], n: usize) -> f64 {
     let mut r = 0.0f64;
     for i in 0..n {
@@ -480,6 +615,85 @@ fn refined_max(est: &[f64], exact: impl Fn(usize) -> Option<f64>) -> Option<f64>
     best
 }
 
+/// The per-point estimates of [`data_checks`] for N known (the loops unrolled).
+fn plain_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> {
+    plain_estimates_n(net, N)
+}
+
+/// Every point's σ_max estimate and reciprocity estimate; inlined into
+/// [`plain_estimates`] so that `n` is a constant there.
+#[inline(always)]
+fn plain_estimates_n(net: &Network, n: usize) -> Vec<(Option<f64>, f64)> {
+    let one = |k: usize| {
+        let s = net.s_block(k);
+        (sigma_max_estimate(s, n), reciprocity_estimate(s, n))
+    };
+    // a sweep that rayon would not split anyway goes without its machinery
+    if net.points() < 2048 {
+        return (0..net.points()).map(one).collect();
+    }
+    (0..net.points())
+        .into_par_iter()
+        .with_min_len(1024)
+        .map(one)
+        .collect()
+}
+
+/// Relative margin below the best known σ_max² under which [`skipping_estimates`]
+/// skips a point: far above the errors of [`gram_below`] (~1e-13) and of the
+/// estimates (2·[`ESTIMATE_REL`] in σ²), far below any gap that matters.
+const SKIP_MARGIN: f64 = 1e-9;
+
+/// The per-point estimates of [`data_checks`] for N = 3, 4, where Jacobi costs some
+/// thousand instructions a point: a point that cannot hold the maximum gets 0 instead
+/// of its σ_max estimate. The best lower bound of the maximum comes from the point with
+/// the largest column norm (its estimate, less the estimate's error and
+/// [`SKIP_MARGIN`]); a point whose σ_max² is certainly below it ([`gram_below`]) is
+/// skipped. A skipped point's exact σ_max is below that point's, so the maximum and
+/// the points [`refined_max`] evaluates exactly are the same, bit for bit. Points
+/// [`column_bound`] declines (not finite, or huge) are never skipped.
+fn skipping_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> {
+    let bounds: Vec<Option<f64>> = (0..net.points())
+        .into_par_iter()
+        .with_min_len(1024)
+        .map(|k| {
+            let s = net.s_block(k);
+            column_bound::<N>(s)
+        })
+        .collect();
+    // the first point of the largest bound
+    let mut top: Option<(usize, f64)> = None;
+    for (k, b) in bounds.iter().enumerate() {
+        if let Some(b) = *b {
+            if top.is_none_or(|(_, t)| b > t) {
+                top = Some((k, b));
+            }
+        }
+    }
+    let below = top
+        .and_then(|(k, _)| sigma_max_estimate(net.s_block(k), N))
+        .map(|e| {
+            let low = e * (1.0 - 2.0 * ESTIMATE_REL);
+            low * low * (1.0 - SKIP_MARGIN)
+        })
+        .unwrap_or(0.0);
+    bounds
+        .into_par_iter()
+        .enumerate()
+        .with_min_len(1024)
+        .map(|(k, bound)| {
+            let s = net.s_block(k);
+            let skip = bound.is_some_and(|b| b < below) && gram_below::<N>(s, below);
+            let est = if skip {
+                Some(0.0)
+            } else {
+                sigma_max_estimate(s, N)
+            };
+            (est, reciprocity_estimate(s, N))
+        })
+        .collect()
+}
+
 /// The data checks of every file (DESIGN §6): passivity_margin = 1 − max_f σ_max(S)
 /// (power-wave S with real references: passive iff σ_max ≤ 1, methods.md §5.3),
 /// reciprocity_error = max_f max_ij |S_ij − S_ji| (§5.4), points, f_min, f_max, ports.
@@ -491,14 +705,12 @@ pub fn data_checks(net: &Network) -> DataChecks {
     let n = net.ports;
     // per point: the σ_max estimate (None when it cannot be had) and the worst
     // |S_ij − S_ji| estimate; the points are independent, so they run in parallel
-    let per_point: Vec<(Option<f64>, f64)> = (0..net.points())
-        .into_par_iter()
-        .with_min_len(1024)
-        .map(|k| {
-            let s = net.s_block(k);
-            (sigma_max_estimate(s, n), reciprocity_estimate(s, n))
-        })
-        .collect();
+    let per_point: Vec<(Option<f64>, f64)> = match n {
+        2 => plain_estimates::<2>(net),
+        3 => skipping_estimates::<3>(net),
+        4 => skipping_estimates::<4>(net),
+        _ => plain_estimates_n(net, n),
+    };
     let ok = n > 0 && net.points() > 0 && per_point.iter().all(|p| p.0.is_some());
     let (smax, recip) = if ok {
         let sig: Vec<f64> = per_point.iter().map(|p| p.0.unwrap_or(0.0)).collect();
@@ -690,6 +902,134 @@ mod tests {
         assert_eq!(sigma_max_gram(&[C64::new(0.0, 0.0); 16], 4), Some(0.0));
     }
 
+    #[test]
+    fn gram_below_never_claims_a_bound_it_cannot_hold() {
+        // the reference: nalgebra's SVD. Just below σ_max² the answer must be false (a
+        // true one would let a point that can hold the maximum be skipped); just above
+        // it, true (else nothing is saved)
+        for n in 3..=4 {
+            let mut tested = 0;
+            for (i, s) in blocks(0xb0 + n as u64, n).iter().enumerate() {
+                let bound = match n {
+                    3 => column_bound::<3>(s),
+                    _ => column_bound::<4>(s),
+                };
+                let Some(bound) = bound else {
+                    continue;
+                };
+                let sv = sigma_max(s, n).expect("SVD of a finite block");
+                let l = sv * sv;
+                let (lo, hi) = (l * (1.0 - 1e-9), l * (1.0 + 1e-9));
+                let (below_lo, below_hi) = match n {
+                    3 => (gram_below::<3>(s, lo), gram_below::<3>(s, hi)),
+                    _ => (gram_below::<4>(s, lo), gram_below::<4>(s, hi)),
+                };
+                assert!(
+                    bound <= l * (1.0 + 1e-15),
+                    "n={n} block {i}: bound {bound:e}"
+                );
+                if lo < GRAM_T_MIN {
+                    continue;
+                }
+                assert!(
+                    !below_lo,
+                    "n={n} block {i}: λ_max {l:e} claimed below {lo:e}"
+                );
+                {
+                    assert!(
+                        below_hi,
+                        "n={n} block {i}: λ_max {l:e} not found below {hi:e}"
+                    );
+                }
+                tested += 1;
+            }
+            assert!(tested >= 80, "n={n}: {tested} blocks");
+        }
+    }
+
+    /// A smooth sweep of nearly lossless N-ports (a unitary times σ(k)) whose σ_max
+    /// peaks in a plateau flat to 1e-9 over many points: the skipping must keep every
+    /// point of the plateau and still find the one exact maximum.
+    fn plateau_sweep(n: usize, seed: u64) -> Network {
+        let mut rng = Lcg(seed);
+        let points = 400;
+        let mut s = Vec::with_capacity(points * n * n);
+        for k in 0..points {
+            // a unitary from Gram–Schmidt of a random block
+            let mut q: Vec<C64> = (0..n * n).map(|_| rng.c()).collect();
+            for j in 0..n {
+                for i in 0..j {
+                    let d: C64 = (0..n).map(|r| q[r * n + i].conj() * q[r * n + j]).sum();
+                    for r in 0..n {
+                        let v = q[r * n + i];
+                        q[r * n + j] -= d * v;
+                    }
+                }
+                let nr = (0..n).map(|r| q[r * n + j].norm_sqr()).sum::<f64>().sqrt();
+                for r in 0..n {
+                    q[r * n + j] /= nr;
+                }
+            }
+            let x = (k as f64 - 200.0) / 200.0;
+            // flat to 1e-9 within |x| < 0.1 (about 40 points), 0.9986 at the ends
+            let sigma = 0.9996 - 1e-3 * x.powi(6);
+            // one column a little smaller: the singular values split
+            for r in 0..n {
+                q[r * n] *= 0.98;
+            }
+            s.extend(q.iter().map(|c| c * sigma));
+        }
+        Network {
+            freq: (1..=points).map(|k| k as f64 * 1e8).collect(),
+            ports: n,
+            z0: vec![50.0; n],
+            s,
+        }
+    }
+
+    #[test]
+    fn skipping_keeps_the_exact_maximum_and_skips() {
+        for n in 3..=4 {
+            for seed in 0..4 {
+                let net = plateau_sweep(n, 0x91a + seed);
+                let d = data_checks(&net);
+                let (m, r) = checks_by_every_point(&net);
+                let bits = |v: Option<f64>| v.map(f64::to_bits);
+                assert_eq!(bits(d.passivity_margin), bits(m), "n={n} seed {seed}");
+                assert_eq!(bits(d.reciprocity_error), bits(r), "n={n} seed {seed}");
+                // the fast path ran: most points were skipped, the plateau was not
+                let est = match n {
+                    3 => skipping_estimates::<3>(&net),
+                    _ => skipping_estimates::<4>(&net),
+                };
+                let skipped = est.iter().filter(|e| e.0 == Some(0.0)).count();
+                assert!(
+                    skipped > 300 && skipped < 400,
+                    "n={n} seed {seed}: {skipped}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn two_port_estimate_is_close_and_declines_extremes() {
+        for (i, s) in blocks(0x22, 2).iter().enumerate() {
+            let Some(want) = sigma_max(s, 2) else {
+                // σ_max itself overflows: so does the estimate
+                assert_eq!(sigma_max_estimate(s, 2), None, "block {i}");
+                continue;
+            };
+            let got = sigma_max_estimate(s, 2).expect("an estimate");
+            let rel = (got - want).abs() / want.max(f64::MIN_POSITIVE);
+            assert!(rel <= 1e-13, "block {i}: {got:e} vs {want:e}");
+            assert_eq!(got == 0.0, want == 0.0, "block {i}");
+        }
+        let huge = [C64::new(1e150, 0.0); 4];
+        assert_eq!(sigma_max_2_unscaled(&huge), None);
+        assert_eq!(sigma_max_estimate(&huge, 2), sigma_max(&huge, 2));
+        assert_eq!(sigma_max_2_unscaled(&[C64::new(f64::NAN, 0.0); 4]), None);
+    }
+
     /// The data checks the straightforward way: every point exactly.
     fn checks_by_every_point(net: &Network) -> (Option<f64>, Option<f64>) {
         let n = net.ports;
@@ -704,6 +1044,26 @@ mod tests {
             recip = recip.max(reciprocity_exact(s, n));
         }
         (smax.and_then(|m| fin(1.0 - m)), fin(recip))
+    }
+
+    #[test]
+    fn long_sweeps_in_parallel_check_the_same() {
+        // 3,000 points go through rayon (shorter sweeps point by point)
+        for n in [1, 2, 3, 4, 5] {
+            let mut rng = Lcg(0x10f + n as u64);
+            let net = Network {
+                freq: (1..=3000).map(|k| k as f64 * 1e7).collect(),
+                ports: n,
+                z0: vec![50.0; n],
+                s: (0..3000 * n * n).map(|_| rng.c() * 0.4).collect(),
+            };
+            let d = data_checks(&net);
+            let (m, r) = checks_by_every_point(&net);
+            let bits = |v: Option<f64>| v.map(f64::to_bits);
+            assert_eq!(bits(d.passivity_margin), bits(m), "n={n}");
+            assert_eq!(bits(d.reciprocity_error), bits(r), "n={n}");
+            assert!(m.is_some());
+        }
     }
 
     #[test]

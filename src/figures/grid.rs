@@ -60,7 +60,7 @@ pub fn interp(f: &[f64], y: &[Option<f64>], x: f64) -> Option<f64> {
 /// at interior points, one-sided at the ends). Two points: the secant. None where
 /// a needed sample is missing or the grid has fewer than two points.
 pub fn derivative(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
-    stencil_derivative(x, y, |i, n| i.clamp(1, n - 2))
+    Stencil::new(x).apply(y)
 }
 
 /// The same derivative from the neighbouring stencil (the parabola through the
@@ -68,51 +68,98 @@ pub fn derivative(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
 /// from [`derivative`] estimates the truncation error (both are O(h²·y‴)). None
 /// for grids of fewer than four points.
 pub fn derivative_alt(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
-    if x.len() < 4 {
-        return vec![None; x.len()];
-    }
-    stencil_derivative(x, y, |i, n| {
-        let j = i.clamp(1, n - 2);
-        if j < n - 2 {
-            j + 1
-        } else {
-            j - 1
-        }
-    })
+    Stencil::new_alt(x).apply(y)
 }
 
-fn stencil_derivative(
-    x: &[f64],
-    y: &[Option<f64>],
-    centre: impl Fn(usize, usize) -> usize,
-) -> Vec<Option<f64>> {
-    let n = x.len();
-    let mut out = vec![None; n];
-    if n < 2 {
-        return out;
+/// The weights of [`derivative`] (or [`derivative_alt`]) on one grid, for
+/// differentiating several curves on it: they depend on the grid alone, and are
+/// most of the work (three divisions a point). [`Stencil::apply`] gives the bits of
+/// the one-off functions, which are built on it.
+#[derive(Debug, Clone)]
+pub struct Stencil {
+    kind: StencilKind,
+}
+
+#[derive(Debug, Clone)]
+enum StencilKind {
+    /// every derivative undefined
+    None(usize),
+    /// two points: the secant's denominator x₁ − x₀
+    Secant(f64),
+    /// per point: the centre j of the three samples and their weights
+    Three(Vec<(usize, [f64; 3])>),
+}
+
+impl Stencil {
+    /// The stencil of [`derivative`] on grid `x`.
+    pub fn new(x: &[f64]) -> Stencil {
+        Stencil::build(x, |i, n| i.clamp(1, n - 2))
     }
-    if n == 2 {
-        let d = match (y[0], y[1]) {
-            (Some(a), Some(b)) => fin((b - a) / (x[1] - x[0])),
-            _ => None,
+
+    /// The stencil of [`derivative_alt`] on grid `x`.
+    pub fn new_alt(x: &[f64]) -> Stencil {
+        if x.len() < 4 {
+            return Stencil {
+                kind: StencilKind::None(x.len()),
+            };
+        }
+        Stencil::build(x, |i, n| {
+            let j = i.clamp(1, n - 2);
+            if j < n - 2 {
+                j + 1
+            } else {
+                j - 1
+            }
+        })
+    }
+
+    fn build(x: &[f64], centre: impl Fn(usize, usize) -> usize) -> Stencil {
+        let n = x.len();
+        let kind = match n {
+            0 | 1 => StencilKind::None(n),
+            2 => StencilKind::Secant(x[1] - x[0]),
+            _ => StencilKind::Three(
+                (0..n)
+                    .map(|i| {
+                        // the three samples used, and the point at which the parabola
+                        // is differentiated
+                        let j = centre(i, n);
+                        let (xa, xb, xc) = (x[j - 1], x[j], x[j + 1]);
+                        let t = x[i];
+                        // derivative of the Lagrange parabola at t
+                        let da = (2.0 * t - xb - xc) / ((xa - xb) * (xa - xc));
+                        let db = (2.0 * t - xa - xc) / ((xb - xa) * (xb - xc));
+                        let dc = (2.0 * t - xa - xb) / ((xc - xa) * (xc - xb));
+                        (j, [da, db, dc])
+                    })
+                    .collect(),
+            ),
         };
-        return vec![d, d];
+        Stencil { kind }
     }
-    for (i, o) in out.iter_mut().enumerate() {
-        // the three samples used, and the point at which the parabola is differentiated
-        let j = centre(i, n);
-        let (xa, xb, xc) = (x[j - 1], x[j], x[j + 1]);
-        let (Some(ya), Some(yb), Some(yc)) = (y[j - 1], y[j], y[j + 1]) else {
-            continue;
-        };
-        let t = x[i];
-        // derivative of the Lagrange parabola at t
-        let da = (2.0 * t - xb - xc) / ((xa - xb) * (xa - xc));
-        let db = (2.0 * t - xa - xc) / ((xb - xa) * (xb - xc));
-        let dc = (2.0 * t - xa - xb) / ((xc - xa) * (xc - xb));
-        *o = fin(ya * da + yb * db + yc * dc);
+
+    /// dy/dx at every grid point of `y` (on the stencil's grid).
+    pub fn apply(&self, y: &[Option<f64>]) -> Vec<Option<f64>> {
+        match &self.kind {
+            StencilKind::None(n) => vec![None; *n],
+            StencilKind::Secant(dx) => {
+                let d = match (y[0], y[1]) {
+                    (Some(a), Some(b)) => fin((b - a) / dx),
+                    _ => None,
+                };
+                vec![d, d]
+            }
+            StencilKind::Three(w) => w
+                .iter()
+                .map(|&(j, [da, db, dc])| {
+                    let (Some(ya), Some(yb), Some(yc)) = (y[j - 1], y[j], y[j + 1]) else {
+                        return None;
+                    };
+                    fin(ya * da + yb * db + yc * dc)
+                })
+                .collect(),
+        }
     }
-    out
 }
 
 /// The lowest frequency where `y` crosses from negative to non-negative, located
@@ -209,6 +256,76 @@ mod tests {
         let d = derivative(&x, &y);
         for (t, di) in x.iter().zip(d) {
             assert!((di.unwrap() - (6.0 * t - 2.0)).abs() < 1e-12);
+        }
+    }
+
+    /// The three-point derivative written out per call, as it was before the weights
+    /// were shared: the reference for [`Stencil`].
+    fn derivative_by_hand(x: &[f64], y: &[Option<f64>], alt: bool) -> Vec<Option<f64>> {
+        let n = x.len();
+        if n < 2 || (alt && n < 4) {
+            return vec![None; n];
+        }
+        if n == 2 {
+            let d = match (y[0], y[1]) {
+                (Some(a), Some(b)) => fin((b - a) / (x[1] - x[0])),
+                _ => None,
+            };
+            return vec![d, d];
+        }
+        (0..n)
+            .map(|i| {
+                let mut j = i.clamp(1, n - 2);
+                if alt {
+                    j = if j < n - 2 { j + 1 } else { j - 1 };
+                }
+                let (xa, xb, xc) = (x[j - 1], x[j], x[j + 1]);
+                let (ya, yb, yc) = (y[j - 1]?, y[j]?, y[j + 1]?);
+                let t = x[i];
+                let da = (2.0 * t - xb - xc) / ((xa - xb) * (xa - xc));
+                let db = (2.0 * t - xa - xc) / ((xb - xa) * (xb - xc));
+                let dc = (2.0 * t - xa - xb) / ((xc - xa) * (xc - xb));
+                fin(ya * da + yb * db + yc * dc)
+            })
+            .collect()
+    }
+
+    #[test]
+    fn shared_stencils_give_the_bits_of_one_derivative_each() {
+        let mut state = 0xd1ffu64;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64
+        };
+        for n in [0, 1, 2, 3, 4, 5, 7, 300] {
+            // a log-like grid with random steps, and curves with gaps
+            let mut x = Vec::with_capacity(n);
+            let mut t = 1e8;
+            for _ in 0..n {
+                t *= 1.0 + 0.05 * next() + 1e-3;
+                x.push(t);
+            }
+            let (plain, alt) = (Stencil::new(&x), Stencil::new_alt(&x));
+            for _ in 0..3 {
+                let y: Vec<Option<f64>> = (0..n)
+                    .map(|_| (next() > 0.05).then(|| (next() - 0.5) * 1e-3))
+                    .collect();
+                let bits = |v: Vec<Option<f64>>| -> Vec<Option<u64>> {
+                    v.into_iter().map(|d| d.map(f64::to_bits)).collect()
+                };
+                assert_eq!(
+                    bits(plain.apply(&y)),
+                    bits(derivative_by_hand(&x, &y, false)),
+                    "n={n}"
+                );
+                assert_eq!(
+                    bits(alt.apply(&y)),
+                    bits(derivative_by_hand(&x, &y, true)),
+                    "n={n} alt"
+                );
+            }
         }
     }
 

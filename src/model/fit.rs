@@ -231,9 +231,14 @@ pub fn series_start(f: &[f64], ys: &[C64]) -> Result<[f64; 4], String> {
     let top = (n * 3 / 4).min(n - 1);
     let mut cs = 0.0;
     let (mut ls, mut rdc, mut rac) = (z0.im / (TAU * f[0]), z0.re, 0.0);
+    let mut zcs = vec![C64::new(0.0, 0.0); n];
     for _ in 0..3 {
-        // the coil's impedance once C_s is taken out
-        let zc = |i: usize| recip(ys[i] - C64::new(0.0, TAU * f[i] * cs));
+        // the coil's impedance once C_s is taken out, once per point (it is read
+        // three times)
+        for (i, z) in zcs.iter_mut().enumerate() {
+            *z = recip(ys[i] - C64::new(0.0, TAU * f[i] * cs));
+        }
+        let zc = |i: usize| zcs[i];
         let low = (n / 2).max(1);
         ls = mean((0..low).map(|i| zc(i).im / (TAU * f[i]))).unwrap_or(ls);
         match lsq2(|| (0..n).map(|i| (1.0, s(i), zc(i).re, 1.0))) {

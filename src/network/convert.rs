@@ -37,6 +37,7 @@ fn one() -> C64 {
 /// underflow, else `norm` (hypot). Within an ulp or so of `norm` and several times
 /// cheaper (glibc's hypot is a call that rescales); for thresholds and estimates,
 /// where the last bit decides nothing. 0 exactly when c is 0.
+#[inline]
 pub fn magnitude(c: C64) -> f64 {
     let m = c.re.abs().max(c.im.abs());
     if m > 1e-150 && m < 1e150 {
@@ -53,6 +54,7 @@ fn all_finite(v: &[C64]) -> bool {
 /// `x.norm() > y.norm()`, decided on the squared magnitudes (no hypot) unless they
 /// are within 1e-12 of each other or outside the range where squaring keeps their
 /// precision: always the same answer, so the same pivots and the same digits.
+#[inline]
 fn larger(x: C64, y: C64) -> bool {
     let (u, v) = (x.norm_sqr(), y.norm_sqr());
     let safe = |w: f64| w > 1e-290 && w < 1e290;
@@ -77,21 +79,115 @@ fn solve_owned(mut a: Vec<C64>, mut x: Vec<C64>, n: usize) -> Option<Vec<C64>> {
     solve_in_place(&mut a, &mut x, n, n).then_some(x)
 }
 
-/// [`solve`] in place for an N×M right-hand side X (row-major): A is overwritten by
-/// its LU factors, B by X. False when A is singular or X is not finite (A and B are
-/// then garbage). The columns of X are independent: a column comes out with the same
+/// [`solve`] in place for an N×M right-hand side X (row-major): A is scratch (it may be
+/// overwritten), B is overwritten by X. False when A is singular or X is not finite (B
+/// is then garbage). The columns of X are independent: a column comes out with the same
 /// bits whatever M is, so a caller that needs only some columns solves only those.
 fn solve_in_place(a: &mut [C64], x: &mut [C64], n: usize, m: usize) -> bool {
-    // One body, instantiated with n and m known for the sizes of the views (3- and
-    // 4-ports, their Y blocks, the two winding columns): the compiler then unrolls it
-    // and drops the bounds checks, a 4×4 solve costing about a third of the
-    // instructions. The operations and their order are the same, so are the bits.
+    // The sizes of the views (3- and 4-ports, their Y blocks, the two winding columns)
+    // with n and m known: the compiler then unrolls the loops, drops the bounds checks
+    // and keeps the matrices in registers. The operations and their order are the
+    // same, so are the bits (`fixed_solve_has_the_bits_of_the_general_one`).
     match (n, m) {
-        (3, 3) => solve_body(a, x, 3, 3),
-        (4, 4) => solve_body(a, x, 4, 4),
-        (4, 2) => solve_body(a, x, 4, 2),
+        (3, 3) => solve_fixed::<3, 3>(a, x),
+        (4, 4) => solve_fixed::<4, 4>(a, x),
+        (4, 2) => solve_fixed::<4, 2>(a, x),
         _ => solve_body(a, x, n, m),
     }
+}
+
+/// [`solve_body`] for N and M known, on copies in local arrays that the compiler can
+/// keep in registers; only X is written back (A's factors are scratch to every
+/// caller). The same operations in the same order, so the same bits, with two
+/// exceptions that change no bit either: the reciprocal of a pivot is taken once
+/// and reused by the back substitution (the pivot row is not touched again after its
+/// step), and `a = a − b`, `a = a·b` replace `-=`, `*=` (the same IEEE operations;
+/// num-complex's compound operators are not marked inline).
+// the elimination reads and writes by index: indices say it plainest; `a = a − b`
+// for `a -= b`: see above
+#[allow(clippy::needless_range_loop, clippy::assign_op_pattern)]
+fn solve_fixed<const N: usize, const M: usize>(a_in: &mut [C64], x_out: &mut [C64]) -> bool {
+    if a_in.len() != N * N || x_out.len() != N * M {
+        return false;
+    }
+    let zero = C64::new(0.0, 0.0);
+    let mut a = [[zero; N]; N];
+    let mut x = [[zero; M]; N];
+    for r in 0..N {
+        a[r].copy_from_slice(&a_in[r * N..(r + 1) * N]);
+        x[r].copy_from_slice(&x_out[r * M..(r + 1) * M]);
+    }
+    if !solve_arrays(a, &mut x) {
+        return false;
+    }
+    for r in 0..N {
+        x_out[r * M..(r + 1) * M].copy_from_slice(&x[r]);
+    }
+    all_finite(x_out)
+}
+
+/// The body of [`solve_fixed`] on arrays: X is overwritten by the solution (not yet
+/// tested for finiteness); false when A is singular.
+#[inline(always)]
+#[allow(clippy::needless_range_loop, clippy::assign_op_pattern)]
+fn solve_arrays<const N: usize, const M: usize>(
+    mut a: [[C64; N]; N],
+    x: &mut [[C64; M]; N],
+) -> bool {
+    let zero = C64::new(0.0, 0.0);
+    let mut scale = 0.0f64;
+    for r in 0..N {
+        for j in 0..N {
+            scale = scale.max(magnitude(a[r][j]));
+        }
+    }
+    if !(scale.is_finite()) || scale == 0.0 {
+        return false;
+    }
+    let mut inv = [zero; N];
+    for c in 0..N {
+        let mut p = c;
+        for r in c + 1..N {
+            if larger(a[r][c], a[p][c]) {
+                p = r;
+            }
+        }
+        let pivot = magnitude(a[p][c]);
+        if pivot.is_nan() || pivot <= SINGULAR_TOL * scale {
+            return false;
+        }
+        if p != c {
+            a.swap(p, c);
+            x.swap(p, c);
+        }
+        inv[c] = one() / a[c][c];
+        for r in c + 1..N {
+            let f = a[r][c] * inv[c];
+            if f == zero {
+                continue;
+            }
+            for j in c + 1..N {
+                a[r][j] = a[r][j] - f * a[c][j];
+            }
+            for j in 0..M {
+                x[r][j] = x[r][j] - f * x[c][j];
+            }
+        }
+    }
+    for c in (0..N).rev() {
+        for j in 0..M {
+            x[c][j] = x[c][j] * inv[c];
+        }
+        for r in 0..c {
+            let f = a[r][c];
+            if f != zero {
+                for j in 0..M {
+                    x[r][j] = x[r][j] - f * x[c][j];
+                }
+            }
+        }
+    }
+    true
 }
 
 #[inline(always)]
@@ -188,12 +284,14 @@ fn eye_plus(m: &[C64], n: usize, sign: f64) -> Vec<C64> {
 }
 
 /// [`eye_plus`] into `out` (same length as `m`).
+// `a = a + b`: num-complex's `+=` is not marked inline, and this runs per point
+#[allow(clippy::assign_op_pattern)]
 fn eye_plus_into(m: &[C64], n: usize, sign: f64, out: &mut [C64]) {
     for (o, c) in out.iter_mut().zip(m) {
         *o = c * sign;
     }
     for i in 0..n {
-        out[i * n + i] += one();
+        out[i * n + i] = out[i * n + i] + one();
     }
 }
 
@@ -290,6 +388,8 @@ fn from_s(s: &[C64], n: usize, z0: &[f64], to_z: bool, general: bool) -> Option<
 /// `work` (N×N) as the LU path's scratch and `scale` the N×N factors [`dd`] of Z = D Zn D
 /// (`to_z`) or Y = D⁻¹ Yn D⁻¹. False where [`from_s`] gives None. The one body behind
 /// every S→Z/Y path, allocating or not, so that all give the same bits.
+// `a = a·b`: num-complex's `*=` is not marked inline, and this runs per point
+#[allow(clippy::assign_op_pattern)]
 fn from_s_into(
     s: &[C64],
     n: usize,
@@ -312,6 +412,8 @@ fn from_s_into(
             Some(x) => out.copy_from_slice(&x),
             None => return false,
         },
+        (3, false) => return from_s_fixed::<3>(s, scale, sa, sb, out),
+        (4, false) => return from_s_fixed::<4>(s, scale, sa, sb, out),
         _ => {
             eye_plus_into(s, n, sa, work);
             eye_plus_into(s, n, sb, out);
@@ -321,7 +423,47 @@ fn from_s_into(
         }
     }
     for (o, f) in out.iter_mut().zip(scale) {
-        *o *= *f;
+        *o = *o * *f;
+    }
+    all_finite(out)
+}
+
+/// [`from_s_into`]'s LU arm for N known, on arrays from the start (no scratch
+/// slices, no copies in and out of the solve): I + sa·S and I + sb·S as
+/// [`eye_plus_into`] forms them, [`solve_arrays`], the factors, the finiteness tests,
+/// so the bits of the slice path (`fixed_s_to_z_y_have_the_bits_of_the_slice_path`).
+#[allow(clippy::needless_range_loop, clippy::assign_op_pattern)]
+fn from_s_fixed<const N: usize>(
+    s: &[C64],
+    scale: &[f64],
+    sa: f64,
+    sb: f64,
+    out: &mut [C64],
+) -> bool {
+    if s.len() != N * N || scale.len() != N * N || out.len() != N * N {
+        return false;
+    }
+    let zero = C64::new(0.0, 0.0);
+    let (mut a, mut x) = ([[zero; N]; N], [[zero; N]; N]);
+    for r in 0..N {
+        for j in 0..N {
+            a[r][j] = s[r * N + j] * sa;
+            x[r][j] = s[r * N + j] * sb;
+        }
+        a[r][r] = a[r][r] + one();
+        x[r][r] = x[r][r] + one();
+    }
+    if !solve_arrays(a, &mut x) {
+        return false;
+    }
+    // the solve's finiteness test, then the factors' (as the slice path does)
+    if !x.iter().all(|row| all_finite(row)) {
+        return false;
+    }
+    for r in 0..N {
+        for j in 0..N {
+            out[r * N + j] = x[r][j] * scale[r * N + j];
+        }
     }
     all_finite(out)
 }
@@ -361,8 +503,19 @@ impl Refs {
 /// operations, so the same bits, without the allocation and the per-block reference
 /// checks (the 2-port path of every `check`).
 pub fn s_to_y_2(s: &[C64; 4], scale: &[f64; 4]) -> Option<[C64; 4]> {
-    let mut out = [C64::new(0.0, 0.0); 4];
-    (all_finite(s) && from_s_into(s, 2, scale, false, false, &mut [], &mut out)).then_some(out)
+    // [`from_s_into`]'s 2-port arm written out on arrays: the closed form, the factors,
+    // the finiteness test, in its order
+    if !all_finite(s) {
+        return None;
+    }
+    let x = from_s_2(s, -1.0)?;
+    let out = [
+        x[0] * scale[0],
+        x[1] * scale[1],
+        x[2] * scale[2],
+        x[3] * scale[3],
+    ];
+    all_finite(&out).then_some(out)
 }
 
 /// Converts the blocks of one network into buffers it owns: [`s_to_y`] and
@@ -492,8 +645,8 @@ pub fn solve_block(a: &[C64], b: &[C64], n: usize) -> Option<Vec<C64>> {
 }
 
 /// [`solve_block`] for N > 2 without allocating, for an N×M right-hand side `b`
-/// (row-major, M = `b.len()` / N): A is overwritten by its LU factors and B by X.
-/// False when A is singular (A and B are then garbage). Each column of X has the
+/// (row-major, M = `b.len()` / N): A is scratch and B is overwritten by X.
+/// False when A is singular (B is then garbage). Each column of X has the
 /// bits it has in a solve with any other M.
 pub fn solve_block_in_place(a: &mut [C64], b: &mut [C64], n: usize) -> bool {
     n > 2 && b.len().is_multiple_of(n) && solve_in_place(a, b, n, b.len() / n)
@@ -558,6 +711,160 @@ mod tests {
         let zin = z[0] - z[1] * z[2] / (z[3] + zl);
         let g = (zin - z0[0]) / (zin + z0[0]);
         assert!((s[0] - g).norm() < 1e-13);
+    }
+
+    #[test]
+    fn fixed_solve_has_the_bits_of_the_general_one() {
+        // random blocks, blocks with exact zeros (the skipped updates), a column
+        // needing a row swap at every step, and a singular one
+        let mut state = 0x5017u64;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
+        };
+        let mut cases: Vec<(usize, usize, Vec<C64>, Vec<C64>)> = Vec::new();
+        for (n, m) in [(3, 3), (4, 4), (4, 2)] {
+            for t in 0..200 {
+                let mut a: Vec<C64> = (0..n * n).map(|_| c(next(), next())).collect();
+                let b: Vec<C64> = (0..n * m).map(|_| c(next(), next())).collect();
+                if t % 4 == 1 {
+                    for k in (0..n * n).step_by(3) {
+                        a[k] = c(0.0, 0.0);
+                    }
+                }
+                if t % 4 == 2 {
+                    // growing down the first column: every step swaps
+                    for r in 0..n {
+                        a[r * n] = c(10f64.powi(r as i32), 0.0);
+                    }
+                }
+                if t % 50 == 3 {
+                    let row: Vec<C64> = a[..n].to_vec();
+                    a[n..2 * n].copy_from_slice(&row);
+                }
+                cases.push((n, m, a, b));
+            }
+        }
+        let fixed = |n: usize, m: usize, a: &mut [C64], x: &mut [C64]| match (n, m) {
+            (3, 3) => solve_fixed::<3, 3>(a, x),
+            (4, 4) => solve_fixed::<4, 4>(a, x),
+            _ => solve_fixed::<4, 2>(a, x),
+        };
+        let mut singular = 0;
+        for (i, (n, m, a, b)) in cases.iter().enumerate() {
+            let (mut a1, mut x1) = (a.clone(), b.clone());
+            let (mut a2, mut x2) = (a.clone(), b.clone());
+            let ok1 = fixed(*n, *m, &mut a1, &mut x1);
+            let ok2 = solve_body(&mut a2, &mut x2, *n, *m);
+            assert_eq!(ok1, ok2, "case {i}");
+            if ok1 {
+                let bits = |v: &[C64]| -> Vec<(u64, u64)> {
+                    v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
+                };
+                assert_eq!(bits(&x1), bits(&x2), "case {i}");
+            } else {
+                singular += 1;
+            }
+        }
+        assert!(singular >= 6, "{singular} singular cases");
+    }
+
+    #[test]
+    fn fixed_s_to_z_y_have_the_bits_of_the_slice_path() {
+        let mut state = 0x3f4u64;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
+        };
+        for n in [3usize, 4] {
+            let z0: Vec<f64> = (0..n).map(|k| 25.0 * (k + 1) as f64).collect();
+            let refs = Refs::new(&z0).expect("references");
+            let mut blocks: Vec<Vec<C64>> = (0..300)
+                .map(|_| (0..n * n).map(|_| c(next(), next()) * 0.6).collect())
+                .collect();
+            // I − S singular (no Z) and I + S singular (no Y)
+            let mut eye = vec![c(0.0, 0.0); n * n];
+            for i in 0..n {
+                eye[i * n + i] = c(1.0, 0.0);
+            }
+            blocks.push(eye.clone());
+            blocks.push(eye.iter().map(|v| -v).collect());
+            let mut none = 0;
+            for (i, s) in blocks.iter().enumerate() {
+                for to_z in [false, true] {
+                    let (sa, sb) = if to_z { (-1.0, 1.0) } else { (1.0, -1.0) };
+                    let f = if to_z { &refs.z } else { &refs.y };
+                    let mut fixed = vec![c(0.0, 0.0); n * n];
+                    let ok1 = match n {
+                        3 => from_s_fixed::<3>(s, f, sa, sb, &mut fixed),
+                        _ => from_s_fixed::<4>(s, f, sa, sb, &mut fixed),
+                    };
+                    // the slice path: eye_plus_into twice, the general solve body
+                    let (mut work, mut slow) = (vec![c(0.0, 0.0); n * n], vec![c(0.0, 0.0); n * n]);
+                    eye_plus_into(s, n, sa, &mut work);
+                    eye_plus_into(s, n, sb, &mut slow);
+                    let mut ok2 = solve_body(&mut work, &mut slow, n, n);
+                    if ok2 {
+                        for (o, v) in slow.iter_mut().zip(f) {
+                            *o *= *v;
+                        }
+                        ok2 = all_finite(&slow);
+                    }
+                    assert_eq!(ok1, ok2, "n={n} block {i} to_z {to_z}");
+                    if ok1 {
+                        let bits = |v: &[C64]| -> Vec<(u64, u64)> {
+                            v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
+                        };
+                        assert_eq!(bits(&fixed), bits(&slow), "n={n} block {i} to_z {to_z}");
+                    } else {
+                        none += 1;
+                    }
+                }
+            }
+            assert!(none >= 2, "n={n}: {none}");
+        }
+    }
+
+    #[test]
+    fn stack_two_port_y_has_the_bits_of_s_to_y() {
+        let mut state = 0x2b0u64;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
+        };
+        let z0 = [50.0, 75.0];
+        let scale = Refs::new(&z0).and_then(|r| r.y2()).expect("2-port factors");
+        let mut cases: Vec<[C64; 4]> = (0..500)
+            .map(|_| {
+                [
+                    c(next(), next()),
+                    c(next(), next()),
+                    c(next(), next()),
+                    c(next(), next()),
+                ]
+            })
+            .collect();
+        // I + S singular (a shunt short), a NaN, and a zero block
+        cases.push([c(-1.0, 0.0), c(0.0, 0.0), c(0.0, 0.0), c(0.3, 0.0)]);
+        cases.push([c(f64::NAN, 0.0), c(0.1, 0.0), c(0.1, 0.0), c(0.2, 0.0)]);
+        cases.push([c(0.0, 0.0); 4]);
+        let mut none = 0;
+        for (i, s) in cases.iter().enumerate() {
+            let stack = s_to_y_2(s, &scale);
+            let heap = s_to_y(s, 2, &z0);
+            let bits = |v: &[C64]| -> Vec<(u64, u64)> {
+                v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
+            };
+            assert_eq!(stack.map(|v| bits(&v)), heap.map(|v| bits(&v)), "case {i}");
+            none += usize::from(stack.is_none());
+        }
+        assert_eq!(none, 2);
     }
 
     #[test]

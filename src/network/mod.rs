@@ -42,6 +42,7 @@ impl Network {
         self.s[k * n * n + i * n + j]
     }
     /// The N×N S block of point k.
+    #[inline]
     pub fn s_block(&self, k: usize) -> &[C64] {
         let n = self.ports;
         &self.s[k * n * n..(k + 1) * n * n]

@@ -147,6 +147,14 @@ fn per_point<T: Send>(
     f: impl Fn(&mut Option<BlockConverter>, usize) -> Option<T> + Sync,
 ) -> Result<Vec<T>, usize> {
     let init = || BlockConverter::new(&net.z0);
+    // a sweep that rayon would not split anyway (with_min_len below) goes without its
+    // machinery: the same points in the same order
+    if net.points() < 2048 {
+        let mut conv = init();
+        return (0..net.points())
+            .map(|k| f(&mut conv, k).ok_or(k))
+            .collect();
+    }
     let all: Option<Vec<T>> = (0..net.points())
         .into_par_iter()
         .with_min_len(1024)
@@ -332,6 +340,91 @@ mod tests {
         let y = [ys, -ys, -ys, ys];
         let zd = C64::new(1.0, 0.0) / differential_y(&y).unwrap();
         assert!((zd - zs).norm() < 1e-12);
+    }
+
+    /// A network of `points` random passive-sized blocks (a small LCG).
+    fn random_net(n: usize, points: usize, seed: u64) -> Network {
+        let mut state = seed;
+        let mut next = || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+        };
+        Network {
+            freq: (1..=points).map(|k| k as f64 * 1e7).collect(),
+            ports: n,
+            z0: vec![50.0; n],
+            s: (0..points * n * n)
+                .map(|_| C64::new(next(), next()) * 0.5)
+                .collect(),
+        }
+    }
+
+    #[test]
+    fn long_sweeps_in_parallel_match_short_ones_in_order() {
+        // 3,000 points go through rayon, each half of them (1,500) point by point:
+        // the concatenated views must have the same bits, and a singular point must
+        // be found at the same frequency
+        for (n, names) in [
+            (2, vec![ViewName::SingleEnded, ViewName::Differential]),
+            (4, vec![ViewName::Transformer]),
+        ] {
+            let mut net = random_net(n, 3000, 0x7e57 + n as u64);
+            let half = |net: &Network, lo: usize| Network {
+                freq: net.freq[lo..lo + 1500].to_vec(),
+                ports: n,
+                z0: net.z0.clone(),
+                s: net.s[lo * n * n..(lo + 1500) * n * n].to_vec(),
+            };
+            for &name in &names {
+                let whole = view(&net, name, &PortMap::default()).expect("a view");
+                let a = view(&half(&net, 0), name, &PortMap::default()).expect("a view");
+                let b = view(&half(&net, 1500), name, &PortMap::default()).expect("a view");
+                // per field: y_in and the 2×2 Y of a drive, or the winding Z
+                let fields = |v: &View| -> [Vec<u64>; 2] {
+                    let bits = |c: &[C64]| -> Vec<u64> {
+                        c.iter()
+                            .flat_map(|c| [c.re.to_bits(), c.im.to_bits()])
+                            .collect()
+                    };
+                    match v {
+                        View::Driving { y_in, two_port, .. } => {
+                            let y2: Vec<C64> =
+                                two_port.iter().flatten().flatten().copied().collect();
+                            [bits(y_in), bits(&y2)]
+                        }
+                        View::Windings { z, .. } => {
+                            let z: Vec<C64> = z.iter().flatten().copied().collect();
+                            [bits(&z), Vec::new()]
+                        }
+                    }
+                };
+                let (w, fa, fb) = (fields(&whole), fields(&a), fields(&b));
+                for f in 0..2 {
+                    let joined: Vec<u64> = fa[f].iter().chain(&fb[f]).copied().collect();
+                    assert_eq!(w[f], joined, "{n} ports, {name:?}, field {f}");
+                }
+                assert!(!w[0].is_empty());
+            }
+            // I + S singular at point 2,500 (S = −I): no Y there, so no view
+            for i in 0..n {
+                for j in 0..n {
+                    net.s[2500 * n * n + i * n + j] =
+                        C64::new(if i == j { -1.0 } else { 0.0 }, 0.0);
+                }
+            }
+            if n == 2 {
+                let err = view(&net, ViewName::SingleEnded, &PortMap::default());
+                assert_eq!(
+                    err,
+                    Err(ViewError::Singular {
+                        view: ViewName::SingleEnded,
+                        f: net.freq[2500]
+                    })
+                );
+            }
+        }
     }
 
     #[test]
