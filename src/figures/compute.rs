@@ -215,13 +215,14 @@ fn capacitor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
 /// `srf` is the lower of the two.
 fn transformer(figs: &mut ViewFigures, f: &[f64], z: &[[C64; 4]]) {
     let w: Vec<f64> = f.iter().map(|&x| TAU * x).collect();
-    let per = |g: &dyn Fn(&[C64; 4], f64) -> Option<f64>| -> Curve {
-        z.iter().zip(&w).map(|(z, &w)| g(z, w)).collect()
-    };
-    let l1 = per(&|z, w| ratio(z[0].im, w));
-    let l2 = per(&|z, w| ratio(z[3].im, w));
-    let m = per(&|z, w| ratio(z[1].im, w));
-    let k = per(&|z, _| {
+    // generic, not `&dyn Fn`: one direct, inlined call per point and curve
+    fn per(z: &[[C64; 4]], w: &[f64], g: impl Fn(&[C64; 4], f64) -> Option<f64>) -> Curve {
+        z.iter().zip(w).map(|(z, &w)| g(z, w)).collect()
+    }
+    let l1 = per(z, &w, |z, w| ratio(z[0].im, w));
+    let l2 = per(z, &w, |z, w| ratio(z[3].im, w));
+    let m = per(z, &w, |z, w| ratio(z[1].im, w));
+    let k = per(z, &w, |z, _| {
         let p = z[0].im * z[3].im;
         if p > 0.0 {
             ratio(z[1].im, p.sqrt())
@@ -229,9 +230,9 @@ fn transformer(figs: &mut ViewFigures, f: &[f64], z: &[[C64; 4]]) {
             None
         }
     });
-    let q1 = per(&|z, _| ratio(z[0].im, z[0].re));
-    let q2 = per(&|z, _| ratio(z[3].im, z[3].re));
-    let il = per(&|z, _| il_min_db(z));
+    let q1 = per(z, &w, |z, _| ratio(z[0].im, z[0].re));
+    let q2 = per(z, &w, |z, _| ratio(z[3].im, z[3].re));
+    let il = per(z, &w, |z, _| il_min_db(z));
     let b1: Curve = z
         .iter()
         .map(|z| z_of(z[0]).and_then(|y| fin(y.im)))
