@@ -142,9 +142,8 @@ fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
 /// Both use the three-point non-uniform derivative ([`super::grid::derivative`]); at
 /// each point the form with the smaller estimated truncation error (the disagreement
 /// with the neighbouring stencil, [`super::grid::derivative_alt`], carried to ω·dB/dω)
-/// is used. This
-/// matters where q is small and the numerator cancels, e.g. the first points of a
-/// sweep that starts low with a coarse step.
+/// is used. This matters where q is small and the numerator cancels, e.g. the first
+/// points of a sweep that starts low with a coarse step.
 fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
     let b: Curve = y.iter().map(|v| fin(v.im)).collect();
     let p: Curve = y.iter().zip(w).map(|(v, &w)| fin(w * v.im)).collect();
@@ -701,11 +700,13 @@ fn skipping_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> 
 ///
 /// Both maxima are found from cheap per-point estimates and then evaluated exactly
 /// ([`sigma_max`] by SVD, `norm`) at the few points that can hold them
-/// ([`refined_max`]): the same numbers as evaluating every point exactly.
+/// ([`refined_max`]): the same numbers as evaluating every point exactly. For 3- and
+/// 4-ports most points need no estimate at all ([`skipping_estimates`]).
 pub fn data_checks(net: &Network) -> DataChecks {
     let n = net.ports;
-    // per point: the σ_max estimate (None when it cannot be had) and the worst
-    // |S_ij − S_ji| estimate; the points are independent, so they run in parallel
+    // per point: the σ_max estimate (None when it cannot be had; 0 for a skipped
+    // point) and the worst |S_ij − S_ji| estimate; the points are independent, so a
+    // long sweep runs in parallel
     let per_point: Vec<(Option<f64>, f64)> = match n {
         2 => plain_estimates::<2>(net),
         3 => skipping_estimates::<3>(net),
