@@ -142,9 +142,8 @@ fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
 /// Both use the three-point non-uniform derivative ([`super::grid::derivative`]); at
 /// each point the form with the smaller estimated truncation error (the disagreement
 /// with the neighbouring stencil, [`super::grid::derivative_alt`], carried to ω·dB/dω)
-/// is used. This
-/// matters where q is small and the numerator cancels, e.g. the first points of a
-/// sweep that starts low with a coarse step.
+/// is used. This matters where q is small and the numerator cancels, e.g. the first
+/// points of a sweep that starts low with a coarse step.
 fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
     let b: Curve = y.iter().map(|v| fin(v.im)).collect();
     let p: Curve = y.iter().zip(w).map(|(v, &w)| fin(w * v.im)).collect();
@@ -215,13 +214,14 @@ fn capacitor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
 /// `srf` is the lower of the two.
 fn transformer(figs: &mut ViewFigures, f: &[f64], z: &[[C64; 4]]) {
     let w: Vec<f64> = f.iter().map(|&x| TAU * x).collect();
-    let per = |g: &dyn Fn(&[C64; 4], f64) -> Option<f64>| -> Curve {
-        z.iter().zip(&w).map(|(z, &w)| g(z, w)).collect()
-    };
-    let l1 = per(&|z, w| ratio(z[0].im, w));
-    let l2 = per(&|z, w| ratio(z[3].im, w));
-    let m = per(&|z, w| ratio(z[1].im, w));
-    let k = per(&|z, _| {
+    // generic, not `&dyn Fn`: one direct, inlined call per point and curve
+    fn per(z: &[[C64; 4]], w: &[f64], g: impl Fn(&[C64; 4], f64) -> Option<f64>) -> Curve {
+        z.iter().zip(w).map(|(z, &w)| g(z, w)).collect()
+    }
+    let l1 = per(z, &w, |z, w| ratio(z[0].im, w));
+    let l2 = per(z, &w, |z, w| ratio(z[3].im, w));
+    let m = per(z, &w, |z, w| ratio(z[1].im, w));
+    let k = per(z, &w, |z, _| {
         let p = z[0].im * z[3].im;
         if p > 0.0 {
             ratio(z[1].im, p.sqrt())
@@ -229,9 +229,9 @@ fn transformer(figs: &mut ViewFigures, f: &[f64], z: &[[C64; 4]]) {
             None
         }
     });
-    let q1 = per(&|z, _| ratio(z[0].im, z[0].re));
-    let q2 = per(&|z, _| ratio(z[3].im, z[3].re));
-    let il = per(&|z, _| il_min_db(z));
+    let q1 = per(z, &w, |z, _| ratio(z[0].im, z[0].re));
+    let q2 = per(z, &w, |z, _| ratio(z[3].im, z[3].re));
+    let il = per(z, &w, |z, _| il_min_db(z));
     let b1: Curve = z
         .iter()
         .map(|z| z_of(z[0]).and_then(|y| fin(y.im)))
@@ -700,11 +700,13 @@ fn skipping_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> 
 ///
 /// Both maxima are found from cheap per-point estimates and then evaluated exactly
 /// ([`sigma_max`] by SVD, `norm`) at the few points that can hold them
-/// ([`refined_max`]): the same numbers as evaluating every point exactly.
+/// ([`refined_max`]): the same numbers as evaluating every point exactly. For 3- and
+/// 4-ports most points need no estimate at all ([`skipping_estimates`]).
 pub fn data_checks(net: &Network) -> DataChecks {
     let n = net.ports;
-    // per point: the σ_max estimate (None when it cannot be had) and the worst
-    // |S_ij − S_ji| estimate; the points are independent, so they run in parallel
+    // per point: the σ_max estimate (None when it cannot be had; 0 for a skipped
+    // point) and the worst |S_ij − S_ji| estimate; the points are independent, so a
+    // long sweep runs in parallel
     let per_point: Vec<(Option<f64>, f64)> = match n {
         2 => plain_estimates::<2>(net),
         3 => skipping_estimates::<3>(net),
