@@ -758,6 +758,25 @@ mod tests {
         }
     }
 
+    /// A unitary n×n block (row-major): Gram–Schmidt on the columns of a random one.
+    fn random_unitary(rng: &mut Lcg, n: usize) -> Vec<C64> {
+        let mut q: Vec<C64> = (0..n * n).map(|_| rng.c()).collect();
+        for j in 0..n {
+            for i in 0..j {
+                let d: C64 = (0..n).map(|r| q[r * n + i].conj() * q[r * n + j]).sum();
+                for r in 0..n {
+                    let v = q[r * n + i];
+                    q[r * n + j] -= d * v;
+                }
+            }
+            let nr = (0..n).map(|r| q[r * n + j].norm_sqr()).sum::<f64>().sqrt();
+            for r in 0..n {
+                q[r * n + j] /= nr;
+            }
+        }
+        q
+    }
+
     /// Blocks of the shapes that stress a σ_max method: random, rank one (nearly
     /// singular), nearly unitary (all singular values clustered near 1, as for
     /// lossless data), diagonal with repeated values, entries spread over 200 decades,
@@ -777,20 +796,7 @@ mod tests {
                     .collect(),
             );
             // Gram–Schmidt on random columns: a unitary Q, times 0.9996, plus ripple
-            let mut q: Vec<C64> = (0..n * n).map(|_| rng.c()).collect();
-            for j in 0..n {
-                for i in 0..j {
-                    let d: C64 = (0..n).map(|r| q[r * n + i].conj() * q[r * n + j]).sum();
-                    for r in 0..n {
-                        let v = q[r * n + i];
-                        q[r * n + j] -= d * v;
-                    }
-                }
-                let nr = (0..n).map(|r| q[r * n + j].norm_sqr()).sum::<f64>().sqrt();
-                for r in 0..n {
-                    q[r * n + j] /= nr;
-                }
-            }
+            let q = random_unitary(&mut rng, n);
             out.push(q.iter().map(|c| c * 0.9996 + rng.c() * 1e-9).collect());
             // spread magnitudes
             out.push(
@@ -958,20 +964,7 @@ mod tests {
         let mut s = Vec::with_capacity(points * n * n);
         for k in 0..points {
             // a unitary from Gram–Schmidt of a random block
-            let mut q: Vec<C64> = (0..n * n).map(|_| rng.c()).collect();
-            for j in 0..n {
-                for i in 0..j {
-                    let d: C64 = (0..n).map(|r| q[r * n + i].conj() * q[r * n + j]).sum();
-                    for r in 0..n {
-                        let v = q[r * n + i];
-                        q[r * n + j] -= d * v;
-                    }
-                }
-                let nr = (0..n).map(|r| q[r * n + j].norm_sqr()).sum::<f64>().sqrt();
-                for r in 0..n {
-                    q[r * n + j] /= nr;
-                }
-            }
+            let mut q = random_unitary(&mut rng, n);
             let x = (k as f64 - 200.0) / 200.0;
             // flat to 1e-9 within |x| < 0.1 (about 40 points), 0.9986 at the ends
             let sigma = 0.9996 - 1e-3 * x.powi(6);

@@ -656,6 +656,23 @@ pub fn solve_block_in_place(a: &mut [C64], b: &mut [C64], n: usize) -> bool {
 mod tests {
     use super::*;
 
+    /// Repeatable test data: uniform in [−1, 1) from a 64-bit LCG (Knuth's MMIX
+    /// multiplier and increment).
+    fn uniform(seed: u64) -> impl FnMut() -> f64 {
+        let mut state = seed;
+        move || {
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
+        }
+    }
+
+    /// The bits of complex values, for comparisons that must be exact.
+    fn bits(v: &[C64]) -> Vec<(u64, u64)> {
+        v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
+    }
+
     fn close(a: &[C64], b: &[C64], tol: f64) -> bool {
         a.len() == b.len()
             && a.iter()
@@ -717,13 +734,7 @@ mod tests {
     fn fixed_solve_has_the_bits_of_the_general_one() {
         // random blocks, blocks with exact zeros (the skipped updates), a column
         // needing a row swap at every step, and a singular one
-        let mut state = 0x5017u64;
-        let mut next = || {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
-        };
+        let mut next = uniform(0x5017u64);
         let mut cases: Vec<(usize, usize, Vec<C64>, Vec<C64>)> = Vec::new();
         for (n, m) in [(3, 3), (4, 4), (4, 2)] {
             for t in 0..200 {
@@ -760,9 +771,6 @@ mod tests {
             let ok2 = solve_body(&mut a2, &mut x2, *n, *m);
             assert_eq!(ok1, ok2, "case {i}");
             if ok1 {
-                let bits = |v: &[C64]| -> Vec<(u64, u64)> {
-                    v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
-                };
                 assert_eq!(bits(&x1), bits(&x2), "case {i}");
             } else {
                 singular += 1;
@@ -773,13 +781,7 @@ mod tests {
 
     #[test]
     fn fixed_s_to_z_y_have_the_bits_of_the_slice_path() {
-        let mut state = 0x3f4u64;
-        let mut next = || {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
-        };
+        let mut next = uniform(0x3f4u64);
         for n in [3usize, 4] {
             let z0: Vec<f64> = (0..n).map(|k| 25.0 * (k + 1) as f64).collect();
             let refs = Refs::new(&z0).expect("references");
@@ -816,9 +818,6 @@ mod tests {
                     }
                     assert_eq!(ok1, ok2, "n={n} block {i} to_z {to_z}");
                     if ok1 {
-                        let bits = |v: &[C64]| -> Vec<(u64, u64)> {
-                            v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
-                        };
                         assert_eq!(bits(&fixed), bits(&slow), "n={n} block {i} to_z {to_z}");
                     } else {
                         none += 1;
@@ -831,13 +830,7 @@ mod tests {
 
     #[test]
     fn stack_two_port_y_has_the_bits_of_s_to_y() {
-        let mut state = 0x2b0u64;
-        let mut next = || {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            (state >> 11) as f64 / (1u64 << 53) as f64 * 2.0 - 1.0
-        };
+        let mut next = uniform(0x2b0u64);
         let z0 = [50.0, 75.0];
         let scale = Refs::new(&z0).and_then(|r| r.y2()).expect("2-port factors");
         let mut cases: Vec<[C64; 4]> = (0..500)
@@ -858,9 +851,6 @@ mod tests {
         for (i, s) in cases.iter().enumerate() {
             let stack = s_to_y_2(s, &scale);
             let heap = s_to_y(s, 2, &z0);
-            let bits = |v: &[C64]| -> Vec<(u64, u64)> {
-                v.iter().map(|c| (c.re.to_bits(), c.im.to_bits())).collect()
-            };
             assert_eq!(stack.map(|v| bits(&v)), heap.map(|v| bits(&v)), "case {i}");
             none += usize::from(stack.is_none());
         }
