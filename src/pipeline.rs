@@ -714,7 +714,7 @@ pub fn judge_part_from(
     let data = figures::data_checks(&net);
     let groups = rules.groups_for(&part.rel);
     let mut errors: Vec<String> = Vec::new();
-    let sidecar = match library::sidecar_path(&part.path) {
+    let sidecar = match part.sidecar() {
         None => None,
         Some(p) => match rules::load_sidecar(&p) {
             Ok(s) => Some(s),

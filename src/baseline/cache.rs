@@ -110,27 +110,46 @@ pub const SINGLE_READ_MAX: u64 = 8 << 20;
 /// The hash of a part's file and, when it is smaller than [`SINGLE_READ_MAX`], its
 /// bytes.
 fn hash_part(path: &Path) -> io::Result<(blake3::Hash, Option<Vec<u8>>)> {
-    let mut f = File::open(path)?;
+    let f = File::open(path)?;
     match f.metadata()?.len() {
         n if n < SINGLE_READ_MAX => {
-            let mut bytes = Vec::with_capacity(n as usize + 1);
-            io::Read::read_to_end(&mut f, &mut bytes)?;
+            let bytes = read_sized(&f, n)?;
             Ok((blake3::hash(&bytes), Some(bytes)))
         }
         _ => Ok((blake3::Hasher::new().update_reader(f)?.finalize(), None)),
     }
 }
 
-/// A part's bytes when it is smaller than [`SINGLE_READ_MAX`], unhashed (for a run
-/// that keeps no cache and compares with no baseline).
-fn read_if_small(path: &Path) -> io::Result<Option<Vec<u8>>> {
-    let mut f = File::open(path)?;
-    match f.metadata()?.len() {
-        n if n < SINGLE_READ_MAX => {
-            let mut bytes = Vec::with_capacity(n as usize + 1);
-            io::Read::read_to_end(&mut f, &mut bytes)?;
-            Ok(Some(bytes))
+/// All of `f`, whose size `metadata` gave as `n`: read into room for one byte more,
+/// so that two reads find the end. `File`'s own `read_to_end` would ask for the size
+/// and position again (a `statx` and an `lseek` per part), and std's generic one reads
+/// in growing 8 KiB steps. A file that grew since is still read whole.
+fn read_sized(mut f: &File, n: u64) -> io::Result<Vec<u8>> {
+    let mut bytes = vec![0; n as usize + 1];
+    let mut len = 0;
+    loop {
+        match io::Read::read(&mut f, &mut bytes[len..]) {
+            Ok(0) => break,
+            Ok(k) => {
+                len += k;
+                if len == bytes.len() {
+                    bytes.resize(2 * len, 0);
+                }
+            }
+            Err(e) if e.kind() == io::ErrorKind::Interrupted => {}
+            Err(e) => return Err(e),
         }
+    }
+    bytes.truncate(len);
+    Ok(bytes)
+}
+
+/// A part's bytes when it is smaller than [`SINGLE_READ_MAX`], unhashed (for a run
+/// that keeps no cache and records no baseline).
+fn read_if_small(path: &Path) -> io::Result<Option<Vec<u8>>> {
+    let f = File::open(path)?;
+    match f.metadata()?.len() {
+        n if n < SINGLE_READ_MAX => Ok(Some(read_sized(&f, n)?)),
         _ => Ok(None),
     }
 }
@@ -337,7 +356,7 @@ pub fn judge(
 /// The key of `part`, or None when its sidecar exists but cannot be read (the rules
 /// module reports that; such a part is never cached).
 fn cache_key(cache: &Cache, part: &PartFile, content: &blake3::Hash) -> Option<String> {
-    match library::sidecar_path(&part.path) {
+    match part.sidecar() {
         None => Some(cache.key(part, content, None)),
         Some(p) => {
             let bytes = fs::read(&p).ok()?;
@@ -389,6 +408,7 @@ mod tests {
                 rel: "a.s1p".into(),
                 path: self.dir.path().join("a.s1p"),
                 error: None,
+                sidecar: Default::default(),
             }
         }
         fn cache(&self, hash: &str) -> Cache {
@@ -531,6 +551,23 @@ mod tests {
             (report(&part.rel, 1.0), vec![])
         });
         assert_eq!(handed.unwrap(), fs::read(&part.path).unwrap());
+    }
+
+    #[test]
+    fn a_file_is_read_whole_whatever_size_was_given() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("grown.s1p");
+        let text: Vec<u8> = (0..20_000u32).map(|i| b'0' + (i % 10) as u8).collect();
+        fs::write(&path, &text).unwrap();
+        // the size as stat gave it, one byte short, and far too small (the file grew)
+        for n in [20_000, 19_999, 3, 0] {
+            let f = File::open(&path).unwrap();
+            assert_eq!(read_sized(&f, n).unwrap(), text, "n = {n}");
+        }
+        fs::write(&path, b"").unwrap();
+        assert!(read_sized(&File::open(&path).unwrap(), 0)
+            .unwrap()
+            .is_empty());
     }
 
     #[test]

@@ -256,7 +256,7 @@ impl RunMemo {
                 trustworthy = false;
             }
             // a sidecar appearing, changing or going away changes the run
-            match walk.sidecar_of(p) {
+            match p.sidecar() {
                 Some(s) => {
                     k.field(s.as_os_str().as_encoded_bytes());
                     if k.stamp(&s, &fresh) {

@@ -9,8 +9,8 @@ mod walk;
 use std::path::{Path, PathBuf};
 
 pub use walk::{
-    is_touchstone_name, ports_from_name, rel_name, walk, PartFile, Walk, WalkError, WalkOptions,
-    CACHE_DIR,
+    is_touchstone_name, ports_from_name, rel_name, walk, PartFile, Sidecar, Walk, WalkError,
+    WalkOptions, CACHE_DIR,
 };
 
 /// Suffix of a sidecar file: `L1p2n_pgs.s2p` has `L1p2n_pgs.part.yaml` beside it.

@@ -27,6 +27,33 @@ pub struct PartFile {
     /// set when the walk itself could not reach the entry (a link loop, an
     /// unreadable folder); such a part is reported `unreadable` with this message
     pub error: Option<String>,
+    /// its `*.part.yaml`, as far as the walk's folder listings tell
+    pub sidecar: Sidecar,
+}
+
+/// Where a part's sidecar file is, as far as the walk knows.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub enum Sidecar {
+    /// not known (a single-file library, a part the walk could not reach, a part
+    /// made by hand): asked of the file system ([`super::sidecar_path`])
+    #[default]
+    Ask,
+    /// the part's folder was listed and holds none
+    Absent,
+    /// this file
+    At(PathBuf),
+}
+
+impl PartFile {
+    /// The part's sidecar file: the same answer as [`super::sidecar_path`], from the
+    /// walk's listings where it has them (two `stat` calls a part saved).
+    pub fn sidecar(&self) -> Option<PathBuf> {
+        match &self.sidecar {
+            Sidecar::Ask => super::sidecar_path(&self.path),
+            Sidecar::Absent => None,
+            Sidecar::At(p) => Some(p.clone()),
+        }
+    }
 }
 
 /// What the walk found.
@@ -183,6 +210,7 @@ pub fn walk(root: &Path, opts: &WalkOptions) -> Result<Walk, WalkError> {
             rel: rel_name(root, root),
             path: root.to_path_buf(),
             error: None,
+            sidecar: Sidecar::Ask,
         });
         return Ok(out);
     }
@@ -226,6 +254,7 @@ pub fn walk(root: &Path, opts: &WalkOptions) -> Result<Walk, WalkError> {
                     rel,
                     path,
                     error: Some(message),
+                    sidecar: Sidecar::Ask,
                 });
                 continue;
             }
@@ -251,6 +280,8 @@ pub fn walk(root: &Path, opts: &WalkOptions) -> Result<Walk, WalkError> {
                 rel,
                 path: entry.into_path(),
                 error: None,
+                // filled in from the listings once the walk is done
+                sidecar: Sidecar::Ask,
             });
         } else if ft.is_symlink() {
             // only reached when links are not followed (or a link is dangling)
@@ -271,6 +302,18 @@ pub fn walk(root: &Path, opts: &WalkOptions) -> Result<Walk, WalkError> {
         .sort_unstable_by(|a, b| a.rel.cmp(&b.rel).then_with(|| a.path.cmp(&b.path)));
     out.notes.sort();
     out.sidecars = Some(sidecars);
+    let found: Vec<Sidecar> = out
+        .parts
+        .iter()
+        .map(|p| match (&p.error, out.sidecar_of(p)) {
+            (Some(_), _) => Sidecar::Ask,
+            (None, Some(s)) => Sidecar::At(s),
+            (None, None) => Sidecar::Absent,
+        })
+        .collect();
+    for (p, s) in out.parts.iter_mut().zip(found) {
+        p.sidecar = s;
+    }
     Ok(out)
 }
 
@@ -443,6 +486,7 @@ mod tests {
             for p in &w.parts {
                 let fast = w.sidecar_of(p);
                 assert_eq!(fast, crate::library::sidecar_path(&p.path), "{}", p.rel);
+                assert_eq!(p.sidecar(), fast, "{}", p.rel);
                 found += usize::from(fast.is_some());
             }
             assert_eq!(found, want);
