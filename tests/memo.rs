@@ -229,3 +229,43 @@ fn a_sidecar_appearing_changing_or_going_away_judges_again() {
     assert!(!replayed(&s.check(&[])));
     assert!(replayed(&s.check(&[])));
 }
+
+/// The memo's stats are taken on several threads in libraries of more than a few
+/// hundred parts: the key must not depend on how many, nor on which part changed.
+#[test]
+fn a_large_library_replays_on_any_thread_count_and_sees_one_changed_part() {
+    let s = Setup::new();
+    // 600 copies of one part of the small library, beside a sidecar for some
+    let lib = s.path("lib");
+    let one = fs::read_dir(lib.join("coils"))
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .find(|p| p.extension().is_some_and(|x| x == "s2p"))
+        .expect("a 2-port in lib-small");
+    let many = lib.join("many");
+    fs::create_dir_all(&many).unwrap();
+    for k in 0..600 {
+        fs::copy(&one, many.join(format!("copy-{k:03}.s2p"))).unwrap();
+    }
+    fs::write(many.join("copy-123.part.yaml"), "band: 1GHz .. 2GHz\n").unwrap();
+    age(&lib);
+    let cold = s.check(&["--jobs", "1"]);
+    assert!(!replayed(&cold));
+    for jobs in ["1", "2", "3"] {
+        let warm = s.check(&["--jobs", jobs]);
+        assert!(
+            replayed(&warm),
+            "jobs {jobs}: {}",
+            String::from_utf8_lossy(&warm.stderr)
+        );
+        assert_eq!(warm.stdout, cold.stdout);
+    }
+    // a rewrite of one part far down the list (its stat falls to another thread)
+    let f = fs::OpenOptions::new()
+        .write(true)
+        .open(many.join("copy-517.s2p"))
+        .unwrap();
+    f.set_modified(SystemTime::now() - Duration::from_secs(1800))
+        .unwrap();
+    assert!(!replayed(&s.check(&["--jobs", "2"])));
+}

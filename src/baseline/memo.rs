@@ -22,6 +22,7 @@ use std::fs;
 use std::path::{Path, PathBuf};
 use std::time::{Duration, SystemTime};
 
+use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 use crate::library::Walk;
@@ -34,6 +35,9 @@ pub const MEMO_FORMAT: &str = "lcgate-run-memo/1";
 /// the run that measured it is not trusted by its times (coarse file-system clocks tick
 /// every few milliseconds).
 pub const RACY_MARGIN: Duration = Duration::from_millis(50);
+
+/// Stats taken together on one thread: enough to outweigh handing the job over.
+const STATS_PER_JOB: usize = 256;
 
 /// Everything that shapes a check run's output apart from the parts' contents.
 #[derive(Debug, Clone)]
@@ -124,20 +128,41 @@ impl KeyBytes {
         self.0.extend_from_slice(bytes);
     }
 
-    /// Take the stat stamp of `path` (the fields [`stamp`] shows, as raw numbers:
-    /// formatting them as text cost more than the `stat` itself) and tell whether the
-    /// file is too fresh to be trusted by its times (modified at or after `fresh`);
-    /// `absent` when it cannot be read.
-    fn stamp(&mut self, path: &Path, fresh: &Fresh) -> bool {
+    /// Feed a stamp taken by [`Stamp::of`].
+    fn stamp(&mut self, s: &Stamp) {
+        match s {
+            Stamp::Absent => self.field(b"absent"),
+            Stamp::Taken { bytes, .. } => self.field(bytes),
+        }
+    }
+}
+
+/// The stat stamp of one file: the fields [`stamp`] shows, as raw numbers (formatting
+/// them as text cost more than the `stat` itself).
+enum Stamp {
+    /// the file cannot be read
+    Absent,
+    Taken {
+        #[cfg(unix)]
+        bytes: [u8; 7 * 8],
+        #[cfg(not(unix))]
+        bytes: [u8; 8 + 16],
+        /// modified at or after the run's [`Fresh`] time: too fresh to be trusted by
+        /// its times
+        fresh: bool,
+    },
+}
+
+impl Stamp {
+    fn of(path: &Path, fresh: &Fresh) -> Stamp {
         let Ok(m) = fs::metadata(path) else {
-            self.field(b"absent");
-            return false;
+            return Stamp::Absent;
         };
         #[cfg(unix)]
         {
             use std::os::unix::fs::MetadataExt;
             let (mtime, mtime_nsec) = (m.mtime(), m.mtime_nsec());
-            let mut b = [0u8; 7 * 8];
+            let mut bytes = [0u8; 7 * 8];
             for (i, v) in [
                 m.size(),
                 mtime as u64,
@@ -150,10 +175,12 @@ impl KeyBytes {
             .into_iter()
             .enumerate()
             {
-                b[i * 8..i * 8 + 8].copy_from_slice(&v.to_le_bytes());
+                bytes[i * 8..i * 8 + 8].copy_from_slice(&v.to_le_bytes());
             }
-            self.field(&b);
-            (mtime, mtime_nsec) >= (fresh.secs, fresh.nanos)
+            Stamp::Taken {
+                bytes,
+                fresh: (mtime, mtime_nsec) >= (fresh.secs, fresh.nanos),
+            }
         }
         #[cfg(not(unix))]
         {
@@ -162,12 +189,18 @@ impl KeyBytes {
                 .and_then(|t| t.duration_since(SystemTime::UNIX_EPOCH).ok())
                 .map(|d| d.as_nanos())
                 .unwrap_or(0);
-            let mut b = [0u8; 8 + 16];
-            b[..8].copy_from_slice(&m.len().to_le_bytes());
-            b[8..].copy_from_slice(&since.to_le_bytes());
-            self.field(&b);
-            modified.is_none_or(|t| t >= fresh.at)
+            let mut bytes = [0u8; 8 + 16];
+            bytes[..8].copy_from_slice(&m.len().to_le_bytes());
+            bytes[8..].copy_from_slice(&since.to_le_bytes());
+            Stamp::Taken {
+                bytes,
+                fresh: modified.is_none_or(|t| t >= fresh.at),
+            }
         }
+    }
+
+    fn is_fresh(&self) -> bool {
+        matches!(self, Stamp::Taken { fresh: true, .. })
     }
 }
 
@@ -248,20 +281,33 @@ impl RunMemo {
         k.field(inputs.presentation.as_bytes());
         k.field(&(walk.parts.len() as u64).to_le_bytes());
         let fresh = Fresh::new(started);
-        for p in &walk.parts {
+        // the stats are most of an unchanged run's time, nearly all of it in the
+        // kernel: take them on the run's threads, feed them in the parts' order
+        let stamps: Vec<(Stamp, Option<(PathBuf, Stamp)>)> = walk
+            .parts
+            .par_iter()
+            .with_min_len(STATS_PER_JOB)
+            .map(|p| {
+                let part = Stamp::of(&p.path, &fresh);
+                // a sidecar appearing, changing or going away changes the run
+                let sidecar = p.sidecar().map(|s| {
+                    let st = Stamp::of(&s, &fresh);
+                    (s, st)
+                });
+                (part, sidecar)
+            })
+            .collect();
+        for (p, (part, sidecar)) in walk.parts.iter().zip(&stamps) {
             k.field(p.rel.as_bytes());
             k.field(p.path.as_os_str().as_encoded_bytes());
             k.field(p.error.as_deref().unwrap_or("").as_bytes());
-            if k.stamp(&p.path, &fresh) {
-                trustworthy = false;
-            }
-            // a sidecar appearing, changing or going away changes the run
-            match p.sidecar() {
-                Some(s) => {
+            k.stamp(part);
+            trustworthy &= !part.is_fresh();
+            match sidecar {
+                Some((s, st)) => {
                     k.field(s.as_os_str().as_encoded_bytes());
-                    if k.stamp(&s, &fresh) {
-                        trustworthy = false;
-                    }
+                    k.stamp(st);
+                    trustworthy &= !st.is_fresh();
                 }
                 None => k.field(b"no sidecar"),
             }

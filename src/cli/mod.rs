@@ -398,7 +398,16 @@ fn run_memo(
         report_dir: a.report.as_deref(),
         presentation: &presentation,
     };
-    Some(RunMemo::new(&dir, &inputs, &walk, started))
+    // the memo's stats run on as many threads as the parts are judged on
+    let memo = || RunMemo::new(&dir, &inputs, &walk, started);
+    match opts.jobs {
+        Some(jobs) => rayon::ThreadPoolBuilder::new()
+            .num_threads(jobs)
+            .build()
+            .ok()
+            .map(|pool| pool.install(memo)),
+        None => Some(memo()),
+    }
 }
 
 fn record(a: &RecordArgs) -> Result<u8, Fatal> {
