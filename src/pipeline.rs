@@ -345,9 +345,9 @@ pub fn run_with(opts: &RunOptions, progress: &dyn Progress) -> Result<Outcome, R
 }
 
 /// Run a check, handing each part's report to `sink` in path order as soon as its
-/// chunk is judged (and compared with the baseline) while the next chunks are judged
-/// on the workers, and keeping in the returned
-/// report the parts `keep` says. The summary counts every part.
+/// chunk is judged (and compared with the baseline), while the next chunks are judged
+/// on the workers, and keeping in the returned report the parts `keep` says. The
+/// summary counts every part.
 pub fn run_into<S: PartSink>(
     opts: &RunOptions,
     progress: &dyn Progress,
