@@ -107,17 +107,27 @@ pub fn hash_file(path: &Path) -> io::Result<blake3::Hash> {
 /// so below this size it would read the whole file at once anyway).
 pub const SINGLE_READ_MAX: u64 = 8 << 20;
 
-/// The hash of a part's file and, when it is smaller than [`SINGLE_READ_MAX`], its
-/// bytes.
-fn hash_part(path: &Path) -> io::Result<(blake3::Hash, Option<Vec<u8>>)> {
+/// A part's file opened and, when it is smaller than [`SINGLE_READ_MAX`], its bytes.
+fn open_part(path: &Path) -> io::Result<(File, Option<Vec<u8>>)> {
     let f = File::open(path)?;
-    match f.metadata()?.len() {
-        n if n < SINGLE_READ_MAX => {
-            let bytes = read_sized(&f, n)?;
-            Ok((blake3::hash(&bytes), Some(bytes)))
-        }
-        _ => Ok((blake3::Hasher::new().update_reader(f)?.finalize(), None)),
-    }
+    let n = f.metadata()?.len();
+    let bytes = if n < SINGLE_READ_MAX {
+        Some(read_sized(&f, n)?)
+    } else {
+        None
+    };
+    Ok((f, bytes))
+}
+
+/// The hash of a part's file and, when it is smaller than [`SINGLE_READ_MAX`], its
+/// bytes (hashed in memory; a larger file is hashed in a stream).
+fn hash_part(path: &Path) -> io::Result<(blake3::Hash, Option<Vec<u8>>)> {
+    let (f, bytes) = open_part(path)?;
+    let h = match &bytes {
+        Some(b) => blake3::hash(b),
+        None => blake3::Hasher::new().update_reader(f)?.finalize(),
+    };
+    Ok((h, bytes))
 }
 
 /// All of `f`, whose size `metadata` gave as `n`: read into room for one byte more,
@@ -142,16 +152,6 @@ fn read_sized(mut f: &File, n: u64) -> io::Result<Vec<u8>> {
     }
     bytes.truncate(len);
     Ok(bytes)
-}
-
-/// A part's bytes when it is smaller than [`SINGLE_READ_MAX`], unhashed (for a run
-/// that keeps no cache and records no baseline).
-fn read_if_small(path: &Path) -> io::Result<Option<Vec<u8>>> {
-    let f = File::open(path)?;
-    match f.metadata()?.len() {
-        n if n < SINGLE_READ_MAX => Ok(Some(read_sized(&f, n)?)),
-        _ => Ok(None),
-    }
 }
 
 impl Cache {
@@ -314,7 +314,8 @@ pub fn judge(
             Ok((h, bytes)) => (Some(h), bytes),
             Err(_) => (None, None),
         },
-        None => (None, read_if_small(&part.path).unwrap_or(None)),
+        // unhashed (a check that keeps no cache)
+        None => (None, open_part(&part.path).map_or(None, |(_, b)| b)),
         Some(_) => (None, None),
     };
     let keyed = match (cache, &content) {

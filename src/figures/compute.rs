@@ -3,12 +3,11 @@
 use std::collections::BTreeMap;
 
 use nalgebra::DMatrix;
-use rayon::prelude::*;
 
 use super::grid::{fin, first_fall, peak, rising_zero, Stencil};
 use super::{DataChecks, Kind, ViewFigures};
 use crate::network::convert::magnitude;
-use crate::network::{Network, View, C64};
+use crate::network::{map_points, Network, View, C64};
 
 const TAU: f64 = 2.0 * std::f64::consts::PI;
 
@@ -628,15 +627,7 @@ fn plain_estimates_n(net: &Network, n: usize) -> Vec<(Option<f64>, f64)> {
         let s = net.s_block(k);
         (sigma_max_estimate(s, n), reciprocity_estimate(s, n))
     };
-    // a sweep that rayon would not split anyway goes without its machinery
-    if net.points() < 2048 {
-        return (0..net.points()).map(one).collect();
-    }
-    (0..net.points())
-        .into_par_iter()
-        .with_min_len(1024)
-        .map(one)
-        .collect()
+    map_points(net.points(), one)
 }
 
 /// Relative margin below the best known σ_max² under which [`skipping_estimates`]
@@ -653,14 +644,7 @@ const SKIP_MARGIN: f64 = 1e-9;
 /// the points [`refined_max`] evaluates exactly are the same, bit for bit. Points
 /// [`column_bound`] declines (not finite, or huge) are never skipped.
 fn skipping_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> {
-    let bounds: Vec<Option<f64>> = (0..net.points())
-        .into_par_iter()
-        .with_min_len(1024)
-        .map(|k| {
-            let s = net.s_block(k);
-            column_bound::<N>(s)
-        })
-        .collect();
+    let bounds: Vec<Option<f64>> = map_points(net.points(), |k| column_bound::<N>(net.s_block(k)));
     // the first point of the largest bound
     let mut top: Option<(usize, f64)> = None;
     for (k, b) in bounds.iter().enumerate() {
@@ -677,21 +661,16 @@ fn skipping_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> 
             low * low * (1.0 - SKIP_MARGIN)
         })
         .unwrap_or(0.0);
-    bounds
-        .into_par_iter()
-        .enumerate()
-        .with_min_len(1024)
-        .map(|(k, bound)| {
-            let s = net.s_block(k);
-            let skip = bound.is_some_and(|b| b < below) && gram_below::<N>(s, below);
-            let est = if skip {
-                Some(0.0)
-            } else {
-                sigma_max_estimate(s, N)
-            };
-            (est, reciprocity_estimate(s, N))
-        })
-        .collect()
+    map_points(net.points(), |k| {
+        let s = net.s_block(k);
+        let skip = bounds[k].is_some_and(|b| b < below) && gram_below::<N>(s, below);
+        let est = if skip {
+            Some(0.0)
+        } else {
+            sigma_max_estimate(s, N)
+        };
+        (est, reciprocity_estimate(s, N))
+    })
 }
 
 /// The data checks of every file (DESIGN §6): passivity_margin = 1 − max_f σ_max(S)

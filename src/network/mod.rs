@@ -11,6 +11,32 @@ mod views;
 
 pub use views::{differential_y, view, views_for, ViewError};
 
+/// Points one rayon job takes when a sweep's points are worked on in parallel: a
+/// point costs well under a microsecond, so smaller jobs cost more to hand over
+/// than they save.
+pub(crate) const POINTS_PER_JOB: usize = 1024;
+
+/// Whether a sweep of `points` is long enough for rayon to split into jobs of
+/// [`POINTS_PER_JOB`]; a shorter one is taken point by point without its machinery
+/// (the same points in the same order, so the same values).
+pub(crate) fn splits(points: usize) -> bool {
+    points >= 2 * POINTS_PER_JOB
+}
+
+/// `f` of every point index below `points`, in order: in parallel when the sweep
+/// [`splits`], else point by point.
+pub(crate) fn map_points<T: Send>(points: usize, f: impl Fn(usize) -> T + Sync + Send) -> Vec<T> {
+    use rayon::prelude::*;
+    if !splits(points) {
+        return (0..points).map(f).collect();
+    }
+    (0..points)
+        .into_par_iter()
+        .with_min_len(POINTS_PER_JOB)
+        .map(f)
+        .collect()
+}
+
 /// Complex number type used throughout.
 pub type C64 = Complex64;
 

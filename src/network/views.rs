@@ -147,9 +147,7 @@ fn per_point<T: Send>(
     f: impl Fn(&mut Option<BlockConverter>, usize) -> Option<T> + Sync,
 ) -> Result<Vec<T>, usize> {
     let init = || BlockConverter::new(&net.z0);
-    // a sweep that rayon would not split anyway (with_min_len below) goes without its
-    // machinery: the same points in the same order
-    if net.points() < 2048 {
+    if !super::splits(net.points()) {
         let mut conv = init();
         return (0..net.points())
             .map(|k| f(&mut conv, k).ok_or(k))
@@ -157,7 +155,7 @@ fn per_point<T: Send>(
     }
     let all: Option<Vec<T>> = (0..net.points())
         .into_par_iter()
-        .with_min_len(1024)
+        .with_min_len(super::POINTS_PER_JOB)
         .map_init(init, &f)
         .collect();
     all.ok_or_else(|| {
