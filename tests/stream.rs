@@ -14,13 +14,29 @@ fn root() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR"))
 }
 
-fn compare_runs(opts: &RunOptions) {
+/// `copying`: the streamed run puts the reports' heads in front of their bodies by
+/// copying the bodies, as on a file system that cannot insert blocks.
+fn compare_runs(opts: &RunOptions, copying: bool) {
     let whole = pipeline::run_with(opts, &NoProgress).expect("run").report;
     let a = tempfile::tempdir().unwrap();
     report::write_all(a.path(), &whole).expect("reports written");
+    // the reports written whole, in memory: no stream, no temporary files
+    let json = std::fs::read(a.path().join("report.json")).unwrap();
+    assert!(
+        json == report::json(&whole).into_bytes(),
+        "report.json differs from json()"
+    );
+    let html = std::fs::read(a.path().join("report.html")).unwrap();
+    assert!(
+        html == report::html(&whole).into_bytes(),
+        "report.html differs from html()"
+    );
 
     let b = tempfile::tempdir().unwrap();
     let mut stream = ReportStream::new(b.path()).expect("stream");
+    if copying {
+        stream = stream.copying_bodies();
+    }
     let mut kept = pipeline::run_into(opts, &NoProgress, &mut stream, Keep::Notable)
         .expect("run")
         .report;
@@ -74,20 +90,23 @@ fn sample_library_with_its_baseline_streams_to_the_same_reports() {
     let r = root();
     let mut o = opts(&r.join("sample-library"), &r.join("rules"));
     o.baseline = Some(r.join("sample-library/baseline.json"));
-    compare_runs(&o);
+    compare_runs(&o, false);
     o.strict = true;
     o.jobs = Some(1);
-    compare_runs(&o);
+    compare_runs(&o, false);
 }
 
-/// The small test library: unreadable files, parts no rule selects, undecided checks.
+/// The small test library: unreadable files, parts no rule selects, undecided checks;
+/// with the reports' heads inserted in front of their bodies and with the bodies copied.
 #[test]
 fn small_library_streams_to_the_same_reports() {
     let r = root();
-    compare_runs(&opts(
+    let o = opts(
         &r.join("tests/data/lib-small"),
         &r.join("tests/data/lib-small-rules"),
-    ));
+    );
+    compare_runs(&o, false);
+    compare_runs(&o, true);
 }
 
 /// A library whose paths collide once made into element ids (`a b` and `a-b`): the
@@ -107,7 +126,7 @@ fn colliding_element_ids_stream_the_same() {
         "suite: ids\nparts:\n  - select: [\"*.s1p\"]\n    kind: inductor\n    checks:\n      l-set: l(1GHz) >= 1nH\n",
     )
     .unwrap();
-    compare_runs(&opts(&lib, &rules));
+    compare_runs(&opts(&lib, &rules), false);
 }
 
 /// A series 2 nH + 1 Ω as a one-port, in Touchstone 1.0 RI form (Z = R + jωL,
@@ -190,7 +209,7 @@ fn parts_judged_ahead_are_taken_once_in_path_order() {
     // and the streamed reports of such a run are the whole run's
     let mut o = opts(&lib, &rules);
     o.jobs = Some(2);
-    compare_runs(&o);
+    compare_runs(&o, false);
 }
 
 #[test]

@@ -67,7 +67,12 @@ pub fn html_to(r: &RunReport, w: &mut dyn std::io::Write) -> std::io::Result<()>
         kinds: &kinds,
         folders: &folders,
     };
-    page.write(w, |w| w.write_all(&rows), |w| w.write_all(&sections))
+    page.write(
+        w,
+        rows.len() as u64,
+        |w| w.write_all(&rows),
+        |w| w.write_all(&sections),
+    )
 }
 
 /// What the page holds of one part: its row in the table of parts, its section, and
@@ -108,14 +113,57 @@ pub(crate) struct Page<'a> {
 }
 
 impl Page<'_> {
-    /// Write the page: `rows` writes the table's rows and `sections` the parts'
-    /// sections, in path order.
+    /// Write the page: `rows` writes the table's rows (`rows_len` bytes) and
+    /// `sections` the parts' sections, in path order.
     pub(crate) fn write(
         &self,
         w: &mut dyn std::io::Write,
+        rows_len: u64,
         rows: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
         sections: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
     ) -> std::io::Result<()> {
+        self.write_opening(w, rows_len, rows)?;
+        sections(w)?;
+        w.write_all(closing().as_bytes())
+    }
+
+    /// Write the page up to the parts' sections, `rows` writing the table's rows
+    /// (`rows_len` bytes). It takes a whole number of blocks, [`Page::opening_len`], so
+    /// that a streamed page's sections can stay where they were written (see
+    /// [`super::BLOCK`]): the padding is spaces at the end of the `#run-time` element,
+    /// the one place where the page varies from run to run anyway (the browser
+    /// collapses them).
+    pub(crate) fn write_opening(
+        &self,
+        w: &mut dyn std::io::Write,
+        rows_len: u64,
+        rows: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
+    ) -> std::io::Result<()> {
+        let (pad, middle) = self.pad(rows_len);
+        w.write_all(self.top(pad).as_bytes())?;
+        let mut counted = super::Counted { w: &mut *w, n: 0 };
+        rows(&mut counted)?;
+        if counted.n != rows_len {
+            return Err(std::io::Error::other("the table's rows changed length"));
+        }
+        w.write_all(middle.as_bytes())
+    }
+
+    /// The length of [`Page::write_opening`] with rows of `rows_len` bytes.
+    pub(crate) fn opening_len(&self, rows_len: u64) -> u64 {
+        let (pad, middle) = self.pad(rows_len);
+        self.top(pad).len() as u64 + rows_len + middle.len() as u64
+    }
+
+    /// The padding of the opening with rows of `rows_len` bytes, and its middle part.
+    fn pad(&self, rows_len: u64) -> (u64, String) {
+        let middle = self.middle();
+        let unpadded = self.top(0).len() as u64 + rows_len + middle.len() as u64;
+        (super::block_pad(unpadded), middle)
+    }
+
+    /// The page up to the table's rows, `pad` spaces in the run's time.
+    fn top(&self, pad: u64) -> String {
         let r = self.head;
         let mut o = String::with_capacity(64 * 1024);
         let verdict = if r.passed { "PASS" } else { "FAIL" };
@@ -143,18 +191,24 @@ impl Page<'_> {
             }
         );
 
-        summary(&mut o, r);
+        summary(&mut o, r, pad);
         table_head(&mut o, self.kinds, self.folders);
-        w.write_all(o.as_bytes())?;
-        rows(w)?;
-        o.clear();
-        let _ = writeln!(o, "</tbody></table>\n</section>");
-        changed(&mut o, r.baseline.is_some(), self.kept, self.id_of);
-        let _ = writeln!(o, "<h2 id=\"details\">Parts in detail</h2>");
-        w.write_all(o.as_bytes())?;
-        sections(w)?;
-        writeln!(w, "</main>\n<script>{SCRIPT}</script>\n</body>\n</html>")
+        o
     }
+
+    /// The page between the table's rows and the parts' sections (before the padding).
+    fn middle(&self) -> String {
+        let mut o = String::with_capacity(4096);
+        let _ = writeln!(o, "</tbody></table>\n</section>");
+        changed(&mut o, self.head.baseline.is_some(), self.kept, self.id_of);
+        let _ = writeln!(o, "<h2 id=\"details\">Parts in detail</h2>");
+        o
+    }
+}
+
+/// The page after the parts' sections.
+pub(crate) fn closing() -> String {
+    format!("</main>\n<script>{SCRIPT}</script>\n</body>\n</html>\n")
 }
 
 /// Element ids of the parts' sections: `part-` and the path with anything but letters,
@@ -227,7 +281,8 @@ fn folder_of(path: &str) -> &str {
     path.rsplit_once('/').map(|(d, _)| d).unwrap_or(".")
 }
 
-fn summary(o: &mut String, r: &RunReport) {
+/// `pad`: spaces at the end of the run's time (see [`Page::write_opening`]).
+fn summary(o: &mut String, r: &RunReport, pad: u64) {
     let s = &r.summary;
     let _ = write!(
         o,
@@ -317,10 +372,12 @@ fn summary(o: &mut String, r: &RunReport) {
     } else {
         "unknown".to_string()
     };
-    let _ = writeln!(
+    let _ = write!(
         o,
-        "<p id=\"run-time\" class=\"run-time\">Run started {started}, took {secs}.</p>\n</section>"
+        "<p id=\"run-time\" class=\"run-time\">Run started {started}, took {secs}."
     );
+    o.extend(std::iter::repeat_n(' ', pad as usize));
+    let _ = writeln!(o, "</p>\n</section>");
 }
 
 fn first_failing_text(p: &PartReport, strict: bool) -> String {

@@ -10,6 +10,7 @@ use std::io;
 use serde::Serialize;
 use serde_json::ser::{CompactFormatter, Formatter};
 
+use super::Counted;
 use crate::verdict::{PartReport, RunReport};
 
 /// The `lcgate-report/1` document, ending in a newline.
@@ -45,43 +46,54 @@ pub(crate) fn document(
     w: &mut dyn io::Write,
     parts: impl FnOnce(&mut dyn io::Write) -> io::Result<()>,
 ) -> io::Result<()> {
-    let mut text = Vec::with_capacity(4096);
-    let mut ser = serde_json::Serializer::with_formatter(&mut text, ReportFormatter::default());
-    head.serialize(&mut ser).map_err(io::Error::other)?;
-    // the field with its indentation and line breaks: no string value holds a raw
-    // line break, so this occurs once, where the struct puts `parts`
-    const EMPTY: &[u8] = b"\n  \"parts\": [],\n";
-    let at = text
-        .windows(EMPTY.len())
-        .position(|x| x == EMPTY)
-        .ok_or_else(|| io::Error::other("report head without a parts field"))?;
-    let open = at + EMPTY.len() - 3; // just after `[`
-    let (before, after) = text.split_at(open);
-    w.write_all(before)?;
-    let mut counted = Counted { w, n: 0 };
+    let frame = Frame::of(head)?;
+    w.write_all(&frame.prefix)?;
+    let mut counted = Counted { w: &mut *w, n: 0 };
     parts(&mut counted)?;
-    if counted.n > 0 {
-        // the fragments wrote their own leading line breaks; close like the printer
-        w.write_all(b"\n  ")?;
-    }
-    w.write_all(after)?;
-    w.write_all(b"\n")
+    let any = counted.n > 0;
+    w.write_all(&frame.suffix(any))
 }
 
-/// A writer that counts what passes through (did any part get written?).
-struct Counted<'a> {
-    w: &'a mut dyn io::Write,
-    n: usize,
+/// The document without its parts, split where they go: `prefix` ends just after the
+/// `[` of `parts`, padded with spaces to a whole number of blocks (see
+/// [`super::BLOCK`]), and the suffix closes the array and the document.
+pub(crate) struct Frame {
+    pub prefix: Vec<u8>,
+    after: Vec<u8>,
 }
 
-impl io::Write for Counted<'_> {
-    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
-        let n = self.w.write(buf)?;
-        self.n += n;
-        Ok(n)
+impl Frame {
+    pub(crate) fn of(head: &RunReport) -> io::Result<Frame> {
+        let mut text = Vec::with_capacity(4096);
+        let mut ser = serde_json::Serializer::with_formatter(&mut text, ReportFormatter::default());
+        head.serialize(&mut ser).map_err(io::Error::other)?;
+        // the field with its indentation and line breaks: no string value holds a raw
+        // line break, so this occurs once, where the struct puts `parts`
+        const EMPTY: &[u8] = b"\n  \"parts\": [],\n";
+        let at = text
+            .windows(EMPTY.len())
+            .position(|x| x == EMPTY)
+            .ok_or_else(|| io::Error::other("report head without a parts field"))?;
+        let open = at + EMPTY.len() - 3; // just after `[`
+        let after = text.split_off(open);
+        let pad = super::block_pad(text.len() as u64);
+        super::write_spaces(&mut text, pad)?;
+        Ok(Frame {
+            prefix: text,
+            after,
+        })
     }
-    fn flush(&mut self) -> io::Result<()> {
-        self.w.flush()
+
+    /// What follows the parts (`any`: at least one was written).
+    pub(crate) fn suffix(&self, any: bool) -> Vec<u8> {
+        let mut out = Vec::with_capacity(self.after.len() + 4);
+        if any {
+            // the fragments wrote their own leading line breaks; close like the printer
+            out.extend_from_slice(b"\n  ");
+        }
+        out.extend_from_slice(&self.after);
+        out.push(b'\n');
+        out
     }
 }
 
@@ -287,7 +299,8 @@ mod tests {
     }
 
     /// The streamed document (head, then part fragments) is the whole report through
-    /// the printer in one go, byte for byte.
+    /// the printer in one go, byte for byte but for the block padding after `[`, which
+    /// takes the head to a multiple of 4 KiB.
     #[test]
     fn streamed_document_equals_the_whole_printed_at_once() {
         use crate::verdict::{PartStatus, RunInfo, Summary};
@@ -323,11 +336,17 @@ mod tests {
             };
             let mut streamed = Vec::new();
             json_to(&r, &mut streamed).unwrap();
+            let streamed = String::from_utf8(streamed).unwrap();
+            const OPEN: &str = "\n  \"parts\": [";
+            let open = streamed.find(OPEN).expect("parts") + OPEN.len();
+            let pad = streamed[open..].len() - streamed[open..].trim_start_matches(' ').len();
             assert_eq!(
-                String::from_utf8(streamed).unwrap(),
-                fmt(&r) + "\n",
-                "{n} parts"
+                (open + pad) % 4096,
+                0,
+                "{n} parts: the head is not whole blocks"
             );
+            let unpadded = format!("{}{}", &streamed[..open], &streamed[open + pad..]);
+            assert_eq!(unpadded, fmt(&r) + "\n", "{n} parts");
         }
     }
 

@@ -80,45 +80,109 @@ fn replace_file(
     fill: impl FnOnce(&mut dyn Write) -> io::Result<()>,
     durable: bool,
 ) -> io::Result<()> {
-    let dir = match path.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    let name = path
-        .file_name()
-        .ok_or_else(|| {
-            io::Error::new(
-                io::ErrorKind::InvalidInput,
-                format!("{}: not a file path", path.display()),
-            )
-        })?
-        .to_string_lossy()
-        .into_owned();
-    let n = TEMP_COUNTER.fetch_add(1, Ordering::Relaxed);
-    let tmp = dir.join(format!(".{name}.tmp-{}-{n}", std::process::id()));
+    let tmp = temp_beside(path)?;
     let result = (|| {
         let f = fs::File::create(&tmp)?;
         let mut w = io::BufWriter::with_capacity(256 * 1024, f);
         fill(&mut w)?;
-        let f = w.into_inner().map_err(|e| e.into_error())?;
+        w.into_inner().map_err(|e| e.into_error())
+    })();
+    match result {
+        Ok(f) => commit(f, &tmp, path, durable),
+        Err(e) => {
+            let _ = fs::remove_file(&tmp);
+            Err(with_path(path, e))
+        }
+    }
+}
+
+/// A fresh name for a temporary file beside `path` (same folder, so that a rename
+/// over `path` stays within one file system): `.NAME.tmp-PID-N`.
+pub(crate) fn temp_beside(path: &Path) -> io::Result<PathBuf> {
+    let name = path.file_name().ok_or_else(|| {
+        io::Error::new(
+            io::ErrorKind::InvalidInput,
+            format!("{}: not a file path", path.display()),
+        )
+    })?;
+    let n = TEMP_COUNTER.fetch_add(1, Ordering::Relaxed);
+    let tmp = format!(".{}.tmp-{}-{n}", name.to_string_lossy(), std::process::id());
+    Ok(folder_of(path).join(tmp))
+}
+
+fn folder_of(path: &Path) -> PathBuf {
+    match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    }
+}
+
+/// Put the written temporary file `tmp` (open as `f`) in place of `path`: fsync it
+/// (when `durable`), rename it over `path`, then fsync the folder on Unix so the
+/// rename itself survives a crash. On failure `tmp` is removed and `path` untouched.
+/// Errors name `path`.
+pub(crate) fn commit(f: fs::File, tmp: &Path, path: &Path, durable: bool) -> io::Result<()> {
+    let result = (|| {
         if durable {
             f.sync_all()?;
         }
         drop(f);
-        fs::rename(&tmp, path)
+        fs::rename(tmp, path)
     })();
     if let Err(e) = result {
-        let _ = fs::remove_file(&tmp);
+        let _ = fs::remove_file(tmp);
         return Err(with_path(path, e));
     }
     #[cfg(unix)]
     if durable {
-        if let Ok(d) = fs::File::open(&dir) {
+        if let Ok(d) = fs::File::open(folder_of(path)) {
             // Best effort: some file systems refuse fsync on a directory.
             let _ = d.sync_all();
         }
     }
     Ok(())
+}
+
+/// The block the bodies of `report.json` and `report.html` are aligned to: the text
+/// before a report's parts is padded with spaces to a multiple of it, so that a
+/// streamed body can stay where it was written while that text is inserted in front
+/// of it (file systems insert whole blocks only; see `stream::Body`). 4 KiB is the
+/// block of the usual Linux file systems; elsewhere the body is copied instead, and
+/// the bytes are the same either way.
+pub(crate) const BLOCK: u64 = 4096;
+
+/// Spaces that take `len` bytes to the next multiple of [`BLOCK`] (0 on a boundary).
+pub(crate) fn block_pad(len: u64) -> u64 {
+    (BLOCK - len % BLOCK) % BLOCK
+}
+
+/// Write `n` spaces.
+pub(crate) fn write_spaces(w: &mut dyn Write, mut n: u64) -> io::Result<()> {
+    const SPACES: [u8; 256] = [b' '; 256];
+    while n > 0 {
+        let k = n.min(SPACES.len() as u64);
+        w.write_all(&SPACES[..k as usize])?;
+        n -= k;
+    }
+    Ok(())
+}
+
+/// A writer that counts what passes through.
+pub(crate) struct Counted<'a> {
+    pub w: &'a mut dyn Write,
+    /// bytes written so far
+    pub n: u64,
+}
+
+impl Write for Counted<'_> {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        let n = self.w.write(buf)?;
+        self.n += n as u64;
+        Ok(n)
+    }
+    fn flush(&mut self) -> io::Result<()> {
+        self.w.flush()
+    }
 }
 
 // ---------------------------------------------------------------------------
@@ -343,6 +407,18 @@ pub(crate) fn check_word(s: CheckStatus) -> &'static str {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn block_pad_reaches_the_next_block_boundary() {
+        for len in [0, 1, 100, 4095, 4096, 4097, 12_287, 12_288, 1_000_000] {
+            let pad = block_pad(len);
+            assert!(pad < BLOCK, "{len}");
+            assert_eq!((len + pad) % BLOCK, 0, "{len}");
+        }
+        let mut out = Vec::new();
+        write_spaces(&mut out, 1000).unwrap();
+        assert_eq!(out, vec![b' '; 1000]);
+    }
 
     #[test]
     fn units_by_figure_name() {

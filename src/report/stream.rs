@@ -4,15 +4,21 @@
 //!
 //! Each part is drawn on a worker thread as soon as it is judged: its `report.json`
 //! element, its row and section of `report.html`, its JUnit test cases. The drawn
-//! pieces are appended, in path order, to unnamed spill files beside the reports and
-//! the part is dropped. At the end each report is written atomically: the head (which
-//! needs every count) and then the spilled body, copied. The writers build their whole
-//! documents from the same pieces (`json::document`, `html::Page`, `junit::Plan`), so a
-//! streamed report has the bytes of one written from a whole [`RunReport`].
+//! pieces are appended, in path order, and the part is dropped. The two big bodies,
+//! the JSON parts and the page's sections (about 15 KiB a part between them), go
+//! straight into the temporary files that become `report.json` and `report.html`
+//! ([`Draft`]); the small ones (the table's rows, the JUnit cases) wait in unnamed
+//! spill files. At the end each report is put in place atomically, its head (which
+//! needs every count) in front of its body: inserted as whole blocks where the file
+//! system can (Linux `fallocate` with `FALLOC_FL_INSERT_RANGE`: ext4, XFS), so that a
+//! body is written once and never copied, and otherwise written to a new file
+//! followed by a copy of the body. The writers build their whole documents from the
+//! same pieces (`json::Frame`, `html::Page`, `junit::Plan`), so a streamed report has
+//! the bytes of one written from a whole [`RunReport`].
 
 use std::collections::{BTreeMap, BTreeSet};
 use std::fs::File;
-use std::io::{self, BufWriter, Seek, SeekFrom, Write};
+use std::io::{self, BufWriter, Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
 
 use rayon::prelude::*;
@@ -20,6 +26,7 @@ use rayon::prelude::*;
 use super::html::{self, PagePart, PartIds};
 use super::junit::{Body, Plan};
 use super::{atomic_write, atomic_write_stream, head_of, json, markdown, REPORT_FILES};
+use super::{commit, temp_beside};
 use crate::pipeline::{Draw, PartSink};
 use crate::verdict::{PartReport, RunReport};
 
@@ -35,6 +42,12 @@ impl Spill {
         })
     }
 
+    /// Bytes written so far.
+    fn len(&mut self) -> io::Result<u64> {
+        self.w.flush()?;
+        self.w.get_mut().stream_position()
+    }
+
     /// Copy everything written so far into `out`.
     fn copy_into(&mut self, out: &mut dyn Write) -> io::Result<()> {
         self.w.flush()?;
@@ -44,6 +57,114 @@ impl Spill {
         f.seek(SeekFrom::End(0))?;
         Ok(())
     }
+}
+
+/// A report's body, written into the temporary file that is to become the report
+/// (see the module doc); the file is removed unless [`Draft::place`] put it in place.
+struct Draft {
+    w: BufWriter<File>,
+    tmp: PathBuf,
+    /// bytes written
+    len: u64,
+    /// try to insert the head in front of the body (off: always copy, for tests)
+    insert: bool,
+}
+
+impl Draft {
+    fn new(report: &Path) -> io::Result<Draft> {
+        let tmp = temp_beside(report)?;
+        // read back when the body has to be copied after all
+        let f = File::options()
+            .read(true)
+            .write(true)
+            .create(true)
+            .truncate(true)
+            .open(&tmp)?;
+        Ok(Draft {
+            w: BufWriter::with_capacity(64 * 1024, f),
+            tmp,
+            len: 0,
+            insert: true,
+        })
+    }
+
+    fn append(&mut self, bytes: &[u8]) -> io::Result<()> {
+        self.w.write_all(bytes)?;
+        self.len += bytes.len() as u64;
+        Ok(())
+    }
+
+    /// Make `path` the report: `prefix` (exactly `prefix_len` bytes, a whole number of
+    /// blocks) written in front of the body and `suffix` after it, atomically and
+    /// durably like [`atomic_write_stream`]. Errors name `path`.
+    fn place(
+        mut self,
+        path: &Path,
+        prefix_len: u64,
+        prefix: impl FnOnce(&mut dyn Write) -> io::Result<()>,
+        suffix: &[u8],
+    ) -> io::Result<()> {
+        let tmp = std::mem::take(&mut self.tmp);
+        let fail = |e: io::Error| {
+            let _ = std::fs::remove_file(&tmp);
+            super::with_path(path, e)
+        };
+        let mut f = match self.w.flush().and_then(|()| self.w.get_ref().try_clone()) {
+            Ok(f) => f,
+            Err(e) => return Err(fail(e)),
+        };
+        // an empty body cannot take an insertion (it would be at the file's end)
+        if self.insert && self.len > 0 && insert_front(&f, prefix_len) {
+            let written = (|| {
+                f.seek(SeekFrom::Start(0))?;
+                let mut w = BufWriter::with_capacity(256 * 1024, &f);
+                let mut counted = super::Counted { w: &mut w, n: 0 };
+                prefix(&mut counted)?;
+                if counted.n != prefix_len {
+                    return Err(io::Error::other("report head of an unexpected length"));
+                }
+                w.flush()?;
+                drop(w);
+                f.seek(SeekFrom::End(0))?;
+                f.write_all(suffix)
+            })();
+            return match written {
+                Ok(()) => commit(f, &tmp, path, true),
+                Err(e) => Err(fail(e)),
+            };
+        }
+        let copied = f.seek(SeekFrom::Start(0)).map_err(&fail).and_then(|_| {
+            let mut body = (&f).take(self.len);
+            atomic_write_stream(path, |w| {
+                prefix(w)?;
+                io::copy(&mut body, w)?;
+                w.write_all(suffix)
+            })
+        });
+        let _ = std::fs::remove_file(&tmp);
+        copied
+    }
+}
+
+impl Drop for Draft {
+    fn drop(&mut self) {
+        if !self.tmp.as_os_str().is_empty() {
+            let _ = std::fs::remove_file(&self.tmp);
+        }
+    }
+}
+
+/// Insert `len` bytes (whole blocks) of hole at the start of `f`, shifting its content;
+/// false where the file system or the system cannot.
+#[cfg(target_os = "linux")]
+fn insert_front(f: &File, len: u64) -> bool {
+    use rustix::fs::{fallocate, FallocateFlags};
+    len.is_multiple_of(super::BLOCK) && fallocate(f, FallocateFlags::INSERT_RANGE, 0, len).is_ok()
+}
+
+#[cfg(not(target_os = "linux"))]
+fn insert_front(_: &File, _: u64) -> bool {
+    false
 }
 
 /// One part drawn for every report (see the module doc).
@@ -92,9 +213,9 @@ pub struct ReportStream {
     plan: Plan,
     /// the element ids that are not their path's plain slug (paths that collide)
     renamed: BTreeMap<String, String>,
-    json: Spill,
+    json: Draft,
     rows: Spill,
-    sections: Spill,
+    sections: Draft,
     junit: Vec<Spill>,
     counts: Vec<Body>,
     kinds: BTreeSet<String>,
@@ -112,19 +233,32 @@ impl ReportStream {
         // a spill that cannot be made is named after the report it was for
         let spill =
             |report: &str| Spill::new(dir).map_err(|e| super::with_path(&dir.join(report), e));
+        let draft = |report: &str| {
+            let path = dir.join(report);
+            Draft::new(&path).map_err(|e| super::with_path(&path, e))
+        };
         Ok(ReportStream {
             dir: dir.to_path_buf(),
             plan: Plan::default(),
             renamed: BTreeMap::new(),
-            json: spill(REPORT_FILES[0])?,
+            json: draft(REPORT_FILES[0])?,
             rows: spill(REPORT_FILES[3])?,
-            sections: spill(REPORT_FILES[3])?,
+            sections: draft(REPORT_FILES[3])?,
             junit: Vec::new(),
             counts: Vec::new(),
             kinds: BTreeSet::new(),
             folders: BTreeSet::new(),
             error: None,
         })
+    }
+
+    /// Put the heads in front of the bodies by copying the bodies, as on a file system
+    /// that cannot insert blocks (for tests: both ways give the same bytes).
+    #[doc(hidden)]
+    pub fn copying_bodies(mut self) -> ReportStream {
+        self.json.insert = false;
+        self.sections.insert = false;
+        self
     }
 
     /// Make the slots for `plan` and the element ids of `paths`; give the drawer.
@@ -168,10 +302,10 @@ impl ReportStream {
             return;
         }
         let write = || -> io::Result<()> {
-            self.json.w.write_all(&d.json)?;
+            self.json.append(&d.json)?;
             if let Some(page) = d.page {
                 self.rows.w.write_all(page.row.as_bytes())?;
-                self.sections.w.write_all(page.section.as_bytes())?;
+                self.sections.append(page.section.as_bytes())?;
                 self.kinds.insert(page.kind);
                 self.folders.insert(page.folder);
             }
@@ -208,9 +342,9 @@ impl ReportStream {
         let ReportStream {
             plan,
             renamed,
-            json: mut json_body,
+            json: json_body,
             mut rows,
-            mut sections,
+            sections,
             mut junit,
             counts,
             kinds,
@@ -218,9 +352,15 @@ impl ReportStream {
             ..
         } = self;
         let write_json = || {
-            atomic_write_stream(&dir.join(REPORT_FILES[0]), |w| {
-                json::document(&head, w, |w| json_body.copy_into(w))
-            })
+            let path = dir.join(REPORT_FILES[0]);
+            let frame = json::Frame::of(&head).map_err(|e| super::with_path(&path, e))?;
+            let suffix = frame.suffix(json_body.len > 0);
+            json_body.place(
+                &path,
+                frame.prefix.len() as u64,
+                |w| w.write_all(&frame.prefix),
+                &suffix,
+            )
         };
         let write_junit_and_summary = || {
             atomic_write_stream(&dir.join(REPORT_FILES[1]), |w| {
@@ -231,7 +371,7 @@ impl ReportStream {
             })
             .and_then(|()| atomic_write(&dir.join(REPORT_FILES[2]), markdown(report).as_bytes()))
         };
-        let mut write_page = || {
+        let write_page = || {
             let id_of = |path: &str| Some(id_for(&renamed, path));
             let page = html::Page {
                 head: report,
@@ -240,9 +380,14 @@ impl ReportStream {
                 kinds: &kinds,
                 folders: &folders,
             };
-            atomic_write_stream(&dir.join(REPORT_FILES[3]), |w| {
-                page.write(w, |w| rows.copy_into(w), |w| sections.copy_into(w))
-            })
+            let path = dir.join(REPORT_FILES[3]);
+            let rows_len = rows.len().map_err(|e| super::with_path(&path, e))?;
+            sections.place(
+                &path,
+                page.opening_len(rows_len),
+                |w| page.write_opening(w, rows_len, |w| rows.copy_into(w)),
+                html::closing().as_bytes(),
+            )
         };
         let (json_done, junit_done, page_done) = std::thread::scope(|s| {
             let json_done = s.spawn(write_json);
@@ -303,4 +448,79 @@ pub(crate) fn write_report(dir: &Path, r: &RunReport) -> io::Result<()> {
         }
     }
     s.finish(r)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::BLOCK;
+    use super::*;
+
+    fn placed(insert: bool, body: &[u8], prefix: &[u8]) -> (io::Result<()>, tempfile::TempDir) {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("r.txt");
+        std::fs::write(&path, b"old").unwrap();
+        let mut d = Draft::new(&path).unwrap();
+        d.insert = insert;
+        d.append(body).unwrap();
+        let head = [b'h'; 4096];
+        let done = d.place(&path, head.len() as u64, |w| w.write_all(prefix), b"tail");
+        (done, dir)
+    }
+
+    #[test]
+    fn a_draft_takes_its_head_in_front_and_leaves_no_temporary_file() {
+        let body: Vec<u8> = (0..100_000u32).map(|i| (i % 251) as u8).collect();
+        let head = [b'h'; 4096];
+        for insert in [true, false] {
+            let (done, dir) = placed(insert, &body, &head);
+            done.unwrap();
+            let got = std::fs::read(dir.path().join("r.txt")).unwrap();
+            let want = [&head[..], &body, b"tail"].concat();
+            assert!(got == want, "insert {insert}: wrong bytes");
+            let names: Vec<_> = std::fs::read_dir(dir.path()).unwrap().collect();
+            assert_eq!(names.len(), 1, "insert {insert}: a temporary file is left");
+        }
+    }
+
+    #[test]
+    fn a_head_of_the_wrong_length_fails_and_leaves_the_old_report() {
+        for insert in [true, false] {
+            let (done, dir) = placed(insert, b"body", b"short head");
+            if insert && can_insert(dir.path()) {
+                // an insertion needs the promised length (the copy does not depend on it)
+                let e = done.expect_err("the head is shorter than promised");
+                assert!(e.to_string().contains("r.txt"), "{e}");
+                let old = std::fs::read(dir.path().join("r.txt")).unwrap();
+                assert_eq!(old, b"old");
+            }
+            let names: Vec<_> = std::fs::read_dir(dir.path()).unwrap().collect();
+            assert_eq!(names.len(), 1, "insert {insert}: a temporary file is left");
+        }
+    }
+
+    /// Whether the file system of `dir` takes insertions (ext4 and XFS do, tmpfs not).
+    fn can_insert(dir: &Path) -> bool {
+        let p = dir.join("probe");
+        let mut f = File::options()
+            .create(true)
+            .truncate(true)
+            .read(true)
+            .write(true)
+            .open(&p)
+            .unwrap();
+        f.write_all(b"x").unwrap();
+        let ok = insert_front(&f, BLOCK);
+        drop(f);
+        std::fs::remove_file(p).unwrap();
+        ok
+    }
+
+    #[test]
+    fn an_unplaced_draft_removes_its_file() {
+        let dir = tempfile::tempdir().unwrap();
+        let mut d = Draft::new(&dir.path().join("r.txt")).unwrap();
+        d.append(b"body").unwrap();
+        drop(d);
+        assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
+    }
 }
