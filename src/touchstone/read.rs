@@ -7,7 +7,9 @@
 //! and checks its numbers in one pass; only a line it declines goes through the
 //! careful per-token path, which is the one that words the errors, so messages and
 //! columns are those of the careful path (`read_bytes_careful` is the reference the
-//! tests compare with). Large files go through [`read_blocks`], which runs that scan
+//! tests compare with). While data are expected, the line reader runs that scan on
+//! the buffer itself ([`LineReader::next_scanned`]), so the scan also finds the
+//! line's end. Large files go through [`read_blocks`], which runs that scan
 //! over a block's lines in parallel and feeds the same parser in order.
 //!
 //! Rules follow `reference/touchstone.md` (section numbers below refer to it).
@@ -614,9 +616,18 @@ impl<'a> Parser<'a> {
 
     /// Feed every line of `lines` to the parser; the number of the last line.
     fn run<R: BufRead>(&mut self, mut lines: LineReader<R>) -> Result<usize, ReadError> {
+        // the values of a data line scanned while its end was being found
+        let mut vals = Vec::new();
         loop {
-            match lines.next_line() {
-                Ok(Some((no, raw))) => self.feed(no, raw, None)?,
+            let next = if self.takes_fast_path() {
+                lines.next_scanned(&mut vals)
+            } else {
+                lines
+                    .next_line()
+                    .map(|l| l.map(|(no, raw)| (no, raw, None)))
+            };
+            match next {
+                Ok(Some((no, raw, end))) => self.feed(no, raw, end.map(|e| (e, &vals[..])))?,
                 Ok(None) => return Ok(lines.line),
                 Err(LineError::Io(e)) => {
                     return Err(self.err(lines.line + 1, 1, ErrorKind::Io(e.to_string())))
