@@ -1859,8 +1859,10 @@ impl<'a> Parser<'a> {
         let line = self.rec_line;
         let pairs = rec[1..].chunks_exact(2);
         // S data of a 2-port with four pairs (nearly every file): the matrix is built
-        // on the stack and appended, no zero fill and no per-cell lookups; a value
-        // that overflows (only DB can) leaves it to the general loop, which names it
+        // on the stack and appended, no zero fill and no per-cell lookups. The values
+        // are finite (both ways of reading a line refuse anything else), so RI and MA
+        // cells are too (|a·cos b| ≤ |a|); a DB magnitude can overflow, which leaves
+        // the record to the general loop, which names the pair
         let two_port = self.fast && self.full_2x2 && param == Param::S;
         if let (true, Ok(p)) = (two_port, <&[f64; 8]>::try_from(&rec[1..])) {
             let m = match format {
@@ -1868,7 +1870,7 @@ impl<'a> Parser<'a> {
                 Format::MA => place_2x2(&self.map, p, |a, b| pair(Format::MA, a, b)),
                 Format::DB => place_2x2(&self.map, p, |a, b| pair(Format::DB, a, b)),
             };
-            if m.iter().all(|c| c.is_finite()) {
+            if format != Format::DB || m.iter().all(|c| c.is_finite()) {
                 self.s.extend_from_slice(&m);
                 self.freq.push(f_raw * mult);
                 self.prev_f = Some((f_raw, line));
