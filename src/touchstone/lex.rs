@@ -36,6 +36,10 @@ pub enum LineError {
     TooLong(usize),
 }
 
+/// A line from [`LineReader::next_scanned`]: its number, its bytes, and where its
+/// content ends when its values were scanned.
+pub type ScannedLine<'a> = (usize, &'a [u8], Option<usize>);
+
 /// Splits a byte stream into lines ended by LF, CRLF or CR (all three occur in real
 /// files; reference/touchstone.md §2.4).
 ///
@@ -152,7 +156,7 @@ impl<R: BufRead> LineReader<R> {
     pub fn next_scanned(
         &mut self,
         out: &mut Vec<f64>,
-    ) -> Result<Option<(usize, &[u8], Option<usize>)>, LineError> {
+    ) -> Result<Option<ScannedLine<'_>>, LineError> {
         self.inner.consume(std::mem::take(&mut self.pending));
         out.clear();
         if !self.done {
