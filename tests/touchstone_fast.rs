@@ -266,6 +266,68 @@ fn bad_data_lines_give_the_careful_paths_errors() {
 }
 
 #[test]
+fn two_port_records_read_the_same_both_ways() {
+    // the 2-port S record path (four pairs placed on the stack, a record held by one
+    // line stored without a copy) against the general loop of the careful path
+    let rows = [
+        "1 0.1 0.2 0.3 0.4 0.5 0.6 0.7 0.8",
+        "2\t.9  -.1 +0.25e1 3E-2   -0 0.  1 -1e-300 ! comment",
+        "3 0.5 10 0.5 20\n 0.5 30 0.5 40",
+        "4 0.5 10\n0.5 20 0.5 30\n0.5 40",
+        "5 -3 170 -6 -179.5 ! mid-record comment\n -6 -179.5 -0.5 0",
+    ];
+    for format in ["RI", "MA", "DB"] {
+        for eol in ["\n", "\r\n", "\r"] {
+            let body = rows.join("\n").replace('\n', eol);
+            let v1 = format!("! v1{eol}# MHz S {format} R 50{eol}{body}{eol}");
+            same_both_ways("two.s2p", v1.as_bytes());
+            assert!(read_bytes("two.s2p", v1.as_bytes()).is_ok(), "{v1}");
+            for order in ["12_21", "21_12"] {
+                let v2 = format!(
+                    "[Version] 2.0{eol}# MHz S {format} R 50{eol}[Number of Ports] 2{eol}\
+                     [Two-Port Data Order] {order}{eol}[Number of Frequencies] 5{eol}\
+                     [Network Data]{eol}{body}{eol}[End]{eol}"
+                );
+                same_both_ways("two.ts", v2.as_bytes());
+                let t = read_bytes("two.ts", v2.as_bytes()).unwrap_or_else(|e| panic!("{e}"));
+                // the second pair of a row is S12 in 12_21 order, S21 in 21_12 order
+                let s12 = t.network.s[1];
+                let second = lex::parse_number(b"0.3").unwrap();
+                if format == "RI" {
+                    assert_eq!(s12.re == second, order == "12_21", "{order}");
+                }
+            }
+            // bad values and bad record lengths: the same errors, with line and column
+            for bad in [
+                "6 0.1 0.2 0.3 0.4 0.5 0.6 0.7 x",
+                "6 0.1 0.2 0.3 0.4 0.5 0.6 0.7",
+                "6 0.1 0.2 0.3 0.4 0.5 0.6 0.7 0.8 0.9",
+                "6 9999 0 0.3 0.4 0.5 0.6 0.7 0.8",
+                "6 0.1 0.2 0.3 0.4 0.5 0.6 0.7 1e999",
+                "6 0.1 0.2 0.3 0.4 0.5 0.6 0.7 inf",
+                "5 0.1 0.2 0.3 0.4 0.5 0.6 0.7 0.8",
+                "6 0.1 0.2 0.3 0.4 0.5 0.6 0.7 0.8\u{1}",
+            ] {
+                let text = format!("# GHz S {format} R 50{eol}{body}{eol}{bad}{eol}");
+                same_both_ways("two.s2p", text.as_bytes());
+                // 9999 overflows as a DB magnitude only
+                let fails = format == "DB" || !bad.contains("9999");
+                assert_eq!(
+                    read_bytes("two.s2p", text.as_bytes()).is_err(),
+                    fails,
+                    "{text}"
+                );
+            }
+        }
+    }
+    // a DB magnitude that overflows: the error names the pair, at the record's line
+    let text = "# GHz S DB R 50\n1 0 0 0 0 0 0 0 0\n2 0 0 9999 0 0 0 0 0\n";
+    let e = read_bytes("db.s2p", text.as_bytes()).unwrap_err();
+    assert_eq!((e.line, e.column), (3, 1), "{e}");
+    assert!(e.to_string().contains("value pair 2"), "{e}");
+}
+
+#[test]
 fn every_prefix_and_byte_flip_reads_the_same_both_ways() {
     for (seed, n, format) in [(3, 1, "MA"), (4, 2, "RI"), (5, 4, "DB")] {
         let g = generate(seed, n, format, 4, "\r\n");

@@ -36,6 +36,10 @@ pub enum LineError {
     TooLong(usize),
 }
 
+/// A line from [`LineReader::next_scanned`]: its number, its bytes, and where its
+/// content ends when its values were scanned.
+pub type ScannedLine<'a> = (usize, &'a [u8], Option<usize>);
+
 /// Splits a byte stream into lines ended by LF, CRLF or CR (all three occur in real
 /// files; reference/touchstone.md §2.4).
 ///
@@ -141,6 +145,41 @@ impl<R: BufRead> LineReader<R> {
                 }
             }
         }
+    }
+
+    /// The next line, for a parser expecting data: when the line lies whole in the
+    /// reader's buffer and [`scan_line`] reads it, its values are in `out` and its
+    /// content end comes third, and the line's end was found by that scan, not by
+    /// a search of its own. Otherwise (a line off the fast path, one that straddles
+    /// a refill, the end of the input) this is [`next_line`](Self::next_line) with
+    /// `None` third and `out` empty.
+    pub fn next_scanned(
+        &mut self,
+        out: &mut Vec<f64>,
+    ) -> Result<Option<ScannedLine<'_>>, LineError> {
+        self.inner.consume(std::mem::take(&mut self.pending));
+        out.clear();
+        if !self.done {
+            let avail = match self.inner.fill_buf() {
+                Ok(b) => b,
+                // nothing to scan: `next_line` retries
+                Err(e) if e.kind() == io::ErrorKind::Interrupted => &[],
+                Err(e) => return Err(LineError::Io(e)),
+            };
+            let start = usize::from(self.skip_lf && avail.first() == Some(&b'\n'));
+            match scan_line(&avail[start..], out) {
+                Some((end, len)) if len <= self.max => {
+                    self.skip_lf = avail[start + len] == b'\r';
+                    self.line += 1;
+                    self.pending = start + len + 1;
+                    return Ok(self
+                        .in_place(start, start + len)?
+                        .map(|(no, l)| (no, l, Some(end))));
+                }
+                _ => out.clear(),
+            }
+        }
+        Ok(self.next_line()?.map(|(no, l)| (no, l, None)))
     }
 
     /// Bytes `from..to` of the reader's buffer, which holds the current line. A
@@ -277,33 +316,57 @@ pub fn parse_number(t: &[u8]) -> Result<f64, NumError> {
 /// the sign the grammar allows only a digit or a point.
 #[inline]
 pub fn scan_numbers(line: &[u8], out: &mut Vec<f64>) -> Option<usize> {
-    let n = line.len();
+    scan(line, out, false).map(|(end, _)| end)
+}
+
+/// [`scan_numbers`] on the line at the start of `text` (a data line and whatever
+/// follows it in the input), finding the line's end on the way: the bytes between
+/// the numbers are looked at anyway, so a LF or CR there ends the line without a
+/// separate search for it. `Some((content end, line end))`, the line end being the
+/// index of its terminator; the values are those `scan_numbers` gives for
+/// `text[..line end]`. `None` when `scan_numbers` would decline that line, or when
+/// `text` ends before a terminator (the caller then takes the line the ordinary
+/// way).
+#[inline]
+pub fn scan_line(text: &[u8], out: &mut Vec<f64>) -> Option<(usize, usize)> {
+    scan(text, out, true)
+}
+
+/// Both scans: `eol` tells whether a LF or CR ends the line (and the end of `text`
+/// is not known to be one) or `text` is the line.
+#[inline(always)]
+fn scan(text: &[u8], out: &mut Vec<f64>, eol: bool) -> Option<(usize, usize)> {
+    let n = text.len();
     let mut i = 0;
     loop {
-        while i < n && is_blank(line[i]) {
-            i += 1;
-        }
-        if i == n {
-            return Some(n);
-        }
-        if line[i] == b'!' {
-            return Some(i);
-        }
-        let rest = &line[i..];
-        let body = match rest[0] {
-            b'+' | b'-' => &rest[1..],
-            _ => rest,
+        // between numbers: blanks, then a number, a comment or the line's end
+        let b = loop {
+            match text.get(i) {
+                Some(b' ' | b'\t') => i += 1,
+                Some(&b) => break b,
+                None if eol => return None,
+                None => return Some((n, n)),
+            }
         };
-        if !matches!(body.first(), Some(b'0'..=b'9' | b'.')) {
-            return None;
+        match b {
+            b'0'..=b'9' | b'.' => {}
+            // after a sign only a digit or a point (no `inf`, `nan`)
+            b'+' | b'-' if matches!(text.get(i + 1), Some(b'0'..=b'9' | b'.')) => {}
+            b'!' if eol => return memchr::memchr2(b'\n', b'\r', &text[i..]).map(|t| (i, i + t)),
+            b'!' => return Some((i, n)),
+            b'\n' | b'\r' if eol => return Some((i, i)),
+            _ => return None,
         }
-        let (v, used) = fast_float2::parse_partial::<f64, _>(rest).ok()?;
+        let (v, used) = fast_float2::parse_partial::<f64, _>(&text[i..]).ok()?;
         if used > LONG_TOKEN || !v.is_finite() {
             return None;
         }
         i += used;
-        if i < n && !is_blank(line[i]) && line[i] != b'!' {
-            return None;
+        // the number must end at a blank, a comment or the line's end
+        match text.get(i) {
+            None | Some(b' ' | b'\t' | b'!') => {}
+            Some(b'\n' | b'\r') if eol => {}
+            Some(_) => return None,
         }
         out.push(v);
     }
@@ -493,6 +556,89 @@ mod tests {
             "e5",
         ] {
             assert_eq!(scan(l), None, "{l:?}");
+        }
+    }
+
+    #[test]
+    fn scan_line_finds_the_line_end_and_agrees_with_scan_numbers() {
+        let lines = [
+            "1 2.5\t-3e2",
+            "  1 .5 ! a comment",
+            "1!x",
+            "",
+            " \t ",
+            "! only a comment",
+            "+1. -0",
+            "1 -",
+            "1 2 ",
+            "inf",
+            "1 nan",
+            "1e999",
+            "1,5",
+            "1e",
+            "1e5x",
+            "# GHz",
+            "[End]",
+            "1 \u{e9}",
+            "1\u{1}",
+            "1 ! caf\u{e9}",
+        ];
+        for line in lines {
+            let mut want = Vec::new();
+            let want = scan_numbers(line.as_bytes(), &mut want).map(|end| (end, want));
+            for eol in ["\n", "\r\n", "\r"] {
+                // what follows the terminator is not looked at
+                for after in ["", "2 3\n", "x"] {
+                    let text = format!("{line}{eol}{after}");
+                    let mut got = vec![9.0];
+                    let got = scan_line(text.as_bytes(), &mut got).map(|(end, len)| {
+                        assert_eq!(len, line.len(), "{text:?}");
+                        (end, got)
+                    });
+                    let mut want = want.clone();
+                    if let Some((_, v)) = &mut want {
+                        v.insert(0, 9.0); // appended after what `out` held
+                    }
+                    assert_eq!(got, want, "{text:?}");
+                }
+            }
+            // no terminator: the line may go on beyond the buffer, so no answer
+            assert_eq!(
+                scan_line(line.as_bytes(), &mut Vec::new()),
+                None,
+                "{line:?}"
+            );
+        }
+    }
+
+    #[test]
+    fn next_scanned_gives_the_lines_of_next_line() {
+        let text = b"# GHz S RI\r\n1 2 3\r\n4 5 6 ! c\n\n7 8 9\r10 x\n11 12 13\r\n14 15";
+        for cap in [1, 2, 3, 5, 7, 64] {
+            let mut plain = LineReader::new(std::io::BufReader::with_capacity(cap, &text[..]));
+            let mut want = Vec::new();
+            while let Some((no, l)) = plain.next_line().unwrap() {
+                let mut v = Vec::new();
+                let scanned = scan_numbers(l, &mut v).map(|end| (end, v));
+                want.push((no, l.to_vec(), scanned));
+            }
+            let mut fused = LineReader::new(std::io::BufReader::with_capacity(cap, &text[..]));
+            let mut got = Vec::new();
+            let mut v = Vec::new();
+            while let Some((no, l, end)) = fused.next_scanned(&mut v).unwrap() {
+                // a line the fused scan did not take is scanned as the parser would
+                let scanned = match end {
+                    Some(end) => Some((end, v.clone())),
+                    None => {
+                        assert!(v.is_empty());
+                        let mut v = Vec::new();
+                        scan_numbers(l, &mut v).map(|end| (end, v))
+                    }
+                };
+                got.push((no, l.to_vec(), scanned));
+            }
+            assert_eq!(got, want, "capacity {cap}");
+            assert_eq!(fused.line, plain.line);
         }
     }
 

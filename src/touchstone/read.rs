@@ -7,7 +7,9 @@
 //! and checks its numbers in one pass; only a line it declines goes through the
 //! careful per-token path, which is the one that words the errors, so messages and
 //! columns are those of the careful path (`read_bytes_careful` is the reference the
-//! tests compare with). Large files go through [`read_blocks`], which runs that scan
+//! tests compare with). While data are expected, the line reader runs that scan on
+//! the buffer itself ([`LineReader::next_scanned`]), so the scan also finds the
+//! line's end. Large files go through [`read_blocks`], which runs that scan
 //! over a block's lines in parallel and feeds the same parser in order.
 //!
 //! Rules follow `reference/touchstone.md` (section numbers below refer to it).
@@ -89,9 +91,10 @@ pub fn read_reader<R: BufRead>(
     read_lines(name, reader, size, true)
 }
 
-/// [`read_bytes`] with the fast path for data lines turned off: every line goes
-/// through the per-token checks. The result is the same, errors included, only
-/// slower; tests compare the two (tests/touchstone_fast.rs).
+/// [`read_bytes`] with the fast paths turned off: every line goes through the
+/// per-token checks and every record through the general conversion loop. The
+/// result is the same, errors included, only slower; tests compare the two
+/// (tests/touchstone_fast.rs).
 pub fn read_bytes_careful(name: &str, bytes: &[u8]) -> Result<Touchstone, ReadError> {
     read_lines(name, bytes, Some(bytes.len() as u64), false)
 }
@@ -422,7 +425,8 @@ struct OptionLine {
 
 struct Parser<'a> {
     name: &'a str,
-    /// data lines take the fast path ([`lex::scan_numbers`])
+    /// the fast paths: data lines through [`lex::scan_numbers`], a record held
+    /// whole by one line stored without a copy, 2-port S records by [`place_2x2`]
     fast: bool,
     ext: Option<(usize, String)>,
     size: Option<u64>,
@@ -456,6 +460,8 @@ struct Parser<'a> {
     mirror: Vec<usize>,
     /// `map` is the identity (a full matrix in row-major order, no mirrored cells)
     in_order: bool,
+    /// a full 2×2 matrix: four pairs, each written once (either order)
+    full_2x2: bool,
     z0: Vec<f64>,
     /// v1 normalising resistances (per port), empty for v2
     norm: Vec<f64>,
@@ -515,6 +521,18 @@ fn pair(format: Format, a: f64, b: f64) -> C64 {
     }
 }
 
+/// The four value pairs of a 2-port record as the row-major matrix: pair `k` goes
+/// to cell `map[k]`. `convert` is one format's [`pair`], so the format is matched
+/// once per record, not once per pair.
+#[inline(always)]
+fn place_2x2(map: &[usize], p: &[f64; 8], convert: impl Fn(f64, f64) -> C64) -> [C64; 4] {
+    let mut m = [C64::new(0.0, 0.0); 4];
+    for (k, &t) in map.iter().enumerate().take(4) {
+        m[t] = convert(p[2 * k], p[2 * k + 1]);
+    }
+    m
+}
+
 impl<'a> Parser<'a> {
     fn new(name: &'a str, size: Option<u64>) -> Result<Self, ReadError> {
         let ext = ports_from_extension(name).map_err(|e| ReadError {
@@ -554,6 +572,7 @@ impl<'a> Parser<'a> {
             map: Vec::new(),
             mirror: Vec::new(),
             in_order: false,
+            full_2x2: false,
             z0: Vec::new(),
             norm: Vec::new(),
             rec: Vec::new(),
@@ -597,9 +616,18 @@ impl<'a> Parser<'a> {
 
     /// Feed every line of `lines` to the parser; the number of the last line.
     fn run<R: BufRead>(&mut self, mut lines: LineReader<R>) -> Result<usize, ReadError> {
+        // the values of a data line scanned while its end was being found
+        let mut vals = Vec::new();
         loop {
-            match lines.next_line() {
-                Ok(Some((no, raw))) => self.feed(no, raw, None)?,
+            let next = if self.takes_fast_path() {
+                lines.next_scanned(&mut vals)
+            } else {
+                lines
+                    .next_line()
+                    .map(|l| l.map(|(no, raw)| (no, raw, None)))
+            };
+            match next {
+                Ok(Some((no, raw, end))) => self.feed(no, raw, end.map(|e| (e, &vals[..])))?,
                 Ok(None) => return Ok(lines.line),
                 Err(LineError::Io(e)) => {
                     return Err(self.err(lines.line + 1, 1, ErrorKind::Io(e.to_string())))
@@ -1480,6 +1508,7 @@ impl<'a> Parser<'a> {
         }
         self.in_order =
             self.map.len() == n * n && self.map.iter().enumerate().all(|(k, &t)| k == t);
+        self.full_2x2 = n == 2 && matrix == Matrix::Full;
         Ok(())
     }
 
@@ -1719,6 +1748,10 @@ impl<'a> Parser<'a> {
         if self.freq.is_empty() {
             self.first_rec_start = self.line_start;
         }
+        if self.fast && self.n.is_some() && k == self.rec_len {
+            // the whole record on this line (the common layout): no copy into `rec`
+            return self.store_record(vals);
+        }
         self.rec.extend_from_slice(vals);
         self.check_record(no, at, 0)
     }
@@ -1807,18 +1840,47 @@ impl<'a> Parser<'a> {
 
     /// Convert the record in `self.rec` to S and append it.
     fn complete_record(&mut self) -> Result<(), ReadError> {
+        let mut rec = std::mem::take(&mut self.rec);
+        let res = self.store_record(&rec);
+        rec.clear();
+        self.rec = rec;
+        res
+    }
+
+    /// Convert one whole record (frequency, then the value pairs in file order) to S
+    /// and append it; the record started at line `self.rec_line`.
+    fn store_record(&mut self, rec: &[f64]) -> Result<(), ReadError> {
         let n = self.n.unwrap_or(1);
         let Some(opt) = &self.opt else {
             return Ok(());
         };
         let (format, param, mult) = (opt.format, opt.param, opt.unit.multiplier());
-        let f_raw = self.rec[0];
+        let f_raw = rec[0];
         let line = self.rec_line;
-        let pairs = self.rec[1..].chunks_exact(2);
+        let pairs = rec[1..].chunks_exact(2);
+        // S data of a 2-port with four pairs (nearly every file): the matrix is built
+        // on the stack and appended, no zero fill and no per-cell lookups. The values
+        // are finite (both ways of reading a line refuse anything else), so RI and MA
+        // cells are too (|a·cos b| ≤ |a|); a DB magnitude can overflow, which leaves
+        // the record to the general loop, which names the pair
+        let two_port = self.fast && self.full_2x2 && param == Param::S;
+        if let (true, Ok(p)) = (two_port, <&[f64; 8]>::try_from(&rec[1..])) {
+            let m = match format {
+                Format::RI => place_2x2(&self.map, p, C64::new),
+                Format::MA => place_2x2(&self.map, p, |a, b| pair(Format::MA, a, b)),
+                Format::DB => place_2x2(&self.map, p, |a, b| pair(Format::DB, a, b)),
+            };
+            if format != Format::DB || m.iter().all(|c| c.is_finite()) {
+                self.s.extend_from_slice(&m);
+                self.freq.push(f_raw * mult);
+                self.prev_f = Some((f_raw, line));
+                return Ok(());
+            }
+        }
         let cells = self.map.iter().zip(&self.mirror);
         let zero = C64::new(0.0, 0.0);
-        // S data (nearly every file) go straight into place in the result; other
-        // parameters through `block` and a conversion
+        // S data go straight into place in the result; other parameters through
+        // `block` and a conversion
         let direct = param == Param::S;
         let base = self.s.len();
         let out = if direct {
@@ -1830,10 +1892,9 @@ impl<'a> Parser<'a> {
             &mut self.block[..]
         };
         let mut bad = None;
-        if direct && format == Format::RI && self.in_order && self.rec.iter().all(|v| v.is_finite())
-        {
-            // the common case, a pair per cell in order (the values are finite, as the
-            // lexer gives nothing else, but that is checked, and cheap)
+        if direct && format == Format::RI && self.in_order && rec.iter().all(|v| v.is_finite()) {
+            // a pair per cell in order (the values are finite, as the lexer gives
+            // nothing else, but that is checked, and cheap)
             for (o, v) in out.iter_mut().zip(pairs) {
                 *o = C64::new(v[0], v[1]);
             }
@@ -1866,7 +1927,6 @@ impl<'a> Parser<'a> {
         }
         self.freq.push(f_raw * mult);
         self.prev_f = Some((f_raw, line));
-        self.rec.clear();
         Ok(())
     }
 
