@@ -146,7 +146,7 @@ fn floor_log10(a: f64) -> i32 {
 }
 
 /// Indices of the points to keep when drawing `series` (all on the grid `freq`, which
-/// must be positive and increasing) with about `target` points.
+/// must be positive and increasing; values not NaN) with about `target` points.
 ///
 /// Kept always: both ends; each series' largest and smallest value; both points around
 /// every sign change (so the zero crossing at SRF is drawn where it is) and around every
@@ -166,23 +166,11 @@ pub fn decimate(
     let mut keep = vec![false; n];
     keep[0] = true;
     keep[n - 1] = true;
+    // (each series' largest and smallest value need no pass of their own: the buckets
+    // below cover every point, and the first extreme of the whole series is the first
+    // extreme of its bucket, which the bucket walk keeps)
     for s in series {
         let s = &s[..n.min(s.len())];
-        let mut hi: Option<(usize, f64)> = None;
-        let mut lo: Option<(usize, f64)> = None;
-        for (i, v) in s.iter().enumerate() {
-            if let Some(v) = *v {
-                if hi.is_none_or(|(_, h)| v > h) {
-                    hi = Some((i, v));
-                }
-                if lo.is_none_or(|(_, l)| v < l) {
-                    lo = Some((i, v));
-                }
-            }
-        }
-        for (i, _) in hi.into_iter().chain(lo) {
-            keep[i] = true;
-        }
         for i in 0..s.len().saturating_sub(1) {
             let change = match (s[i], s[i + 1]) {
                 (Some(a), Some(b)) => (a < 0.0) != (b < 0.0),
@@ -227,25 +215,36 @@ pub fn decimate(
         }
         keep[start] = true;
         for s in series {
-            let mut hi: Option<(usize, f64)> = None;
-            let mut lo: Option<(usize, f64)> = None;
-            for (i, v) in s.iter().enumerate().take(end.min(s.len())).skip(start) {
-                if let Some(v) = *v {
-                    if hi.is_none_or(|(_, h)| v > h) {
-                        hi = Some((i, v));
-                    }
-                    if lo.is_none_or(|(_, l)| v < l) {
-                        lo = Some((i, v));
-                    }
-                }
-            }
-            for (i, _) in hi.into_iter().chain(lo) {
-                keep[i] = true;
+            let bucket = s.get(start..end.min(s.len())).unwrap_or_default();
+            if let Some((hi, lo)) = extremes(bucket) {
+                keep[start + hi] = true;
+                keep[start + lo] = true;
             }
         }
         start = end;
     }
     (0..n).filter(|&i| keep[i]).collect()
+}
+
+/// The indices of the first largest and the first smallest defined value of `s`; None
+/// when it has none.
+fn extremes(s: &[Option<f64>]) -> Option<(usize, usize)> {
+    let mut best: Option<((usize, f64), (usize, f64))> = None;
+    for (i, v) in s.iter().enumerate() {
+        let Some(v) = *v else { continue };
+        match &mut best {
+            None => best = Some(((i, v), (i, v))),
+            Some((hi, lo)) => {
+                if v > hi.1 {
+                    *hi = (i, v);
+                }
+                if v < lo.1 {
+                    *lo = (i, v);
+                }
+            }
+        }
+    }
+    best.map(|(hi, lo)| (hi.0, lo.0))
 }
 
 /// Ticks of a log-frequency axis.
@@ -394,17 +393,21 @@ impl Rdp {
             let (x1, y1) = points[b];
             let (dx, dy) = (x1 - x0, y1 - y0);
             let len = (dx * dx + dy * dy).sqrt();
-            let mut far = (a, 0.0);
-            for (i, &(x, y)) in points.iter().enumerate().take(b).skip(a + 1) {
-                let d = if len > 0.0 {
-                    ((x - x0) * dy - (y - y0) * dx).abs() / len
-                } else {
-                    ((x - x0).powi(2) + (y - y0).powi(2)).sqrt()
-                };
-                if d > far.1 {
-                    far = (i, d);
+            let inner = &points[a + 1..b];
+            let far = if len > 0.0 {
+                farthest_from_chord(inner, (x0, y0), (dx, dy), len)
+            } else {
+                // both ends at one spot: the distance to it
+                let mut far = (0, 0.0);
+                for (i, &(x, y)) in inner.iter().enumerate() {
+                    let d = ((x - x0).powi(2) + (y - y0).powi(2)).sqrt();
+                    if d > far.1 {
+                        far = (i, d);
+                    }
                 }
-            }
+                far
+            };
+            let far = (a + 1 + far.0, far.1);
             if far.1 > eps {
                 self.keep[far.0] = true;
                 self.stack.push((a, far.0));
@@ -413,6 +416,32 @@ impl Rdp {
         }
         &self.keep
     }
+}
+
+/// The first point of `inner` farthest from the chord from `p0` along `(dx, dy)` (of
+/// length `len` > 0) and its distance |cross| / len, or (0, 0.0) when none is off the
+/// chord. The distance needs a division, but a point can only be farther than the
+/// farthest so far when its cross product is larger, so only those are divided: the
+/// same point and distance as dividing every one.
+fn farthest_from_chord(
+    inner: &[(f64, f64)],
+    (x0, y0): (f64, f64),
+    (dx, dy): (f64, f64),
+    len: f64,
+) -> (usize, f64) {
+    let mut far = (0, 0.0);
+    let mut far_cross = 0.0;
+    for (i, &(x, y)) in inner.iter().enumerate() {
+        let cross = ((x - x0) * dy - (y - y0) * dx).abs();
+        if cross > far_cross {
+            let d = cross / len;
+            if d > far.1 {
+                far = (i, d);
+                far_cross = cross;
+            }
+        }
+    }
+    far
 }
 
 // ---------------------------------------------------------------------------
@@ -1026,6 +1055,221 @@ mod tests {
         let idx = decimate(&f, &[&v], &[], 100);
         for i in [699, 700, 899, 900] {
             assert!(idx.contains(&i), "{i}");
+        }
+    }
+
+    /// A small xorshift64 generator for the comparisons below.
+    struct Rng(u64);
+
+    impl Rng {
+        fn next(&mut self) -> u64 {
+            self.0 ^= self.0 << 13;
+            self.0 ^= self.0 >> 7;
+            self.0 ^= self.0 << 17;
+            self.0
+        }
+        /// uniform in [0, 1)
+        fn unit(&mut self) -> f64 {
+            (self.next() >> 11) as f64 / (1u64 << 53) as f64
+        }
+    }
+
+    /// [`decimate`] as first written: a pass for each series' extremes of its own.
+    fn decimate_plain(
+        freq: &[f64],
+        series: &[&[Option<f64>]],
+        keep_f: &[f64],
+        target: usize,
+    ) -> Vec<usize> {
+        let n = freq.len();
+        if n <= target.max(2) {
+            return (0..n).collect();
+        }
+        let extremes = |s: &[Option<f64>], from: usize, keep: &mut [bool]| {
+            let mut hi: Option<(usize, f64)> = None;
+            let mut lo: Option<(usize, f64)> = None;
+            for (i, v) in s.iter().enumerate() {
+                if let Some(v) = *v {
+                    if hi.is_none_or(|(_, h)| v > h) {
+                        hi = Some((i, v));
+                    }
+                    if lo.is_none_or(|(_, l)| v < l) {
+                        lo = Some((i, v));
+                    }
+                }
+            }
+            for (i, _) in hi.into_iter().chain(lo) {
+                keep[from + i] = true;
+            }
+        };
+        let mut keep = vec![false; n];
+        keep[0] = true;
+        keep[n - 1] = true;
+        for s in series {
+            let s = &s[..n.min(s.len())];
+            extremes(s, 0, &mut keep);
+            for i in 0..s.len().saturating_sub(1) {
+                let change = match (s[i], s[i + 1]) {
+                    (Some(a), Some(b)) => (a < 0.0) != (b < 0.0),
+                    (None, None) => false,
+                    _ => true,
+                };
+                if change {
+                    keep[i] = true;
+                    keep[i + 1] = true;
+                }
+            }
+        }
+        for &f in keep_f {
+            let j = freq.partition_point(|&x| x < f);
+            if j < n {
+                keep[j] = true;
+            }
+            if j > 0 {
+                keep[j - 1] = true;
+            }
+        }
+        let buckets = (target / (1 + series.len())).max(1);
+        let lf: Vec<f64> = freq.iter().map(|f| f.ln()).collect();
+        let (l0, l1) = (lf[0], lf[n - 1]);
+        let width = (l1 - l0) / buckets as f64;
+        let mut start = 0;
+        while start < n {
+            let b = if width > 0.0 {
+                (((lf[start] - l0) / width).floor() as usize).min(buckets - 1)
+            } else {
+                buckets - 1
+            };
+            let edge = l0 + width * (b + 1) as f64;
+            let mut end = start + 1;
+            while end < n && (b == buckets - 1 || lf[end] < edge) {
+                end += 1;
+            }
+            keep[start] = true;
+            for s in series {
+                let bucket = s.get(start..end.min(s.len())).unwrap_or_default();
+                extremes(bucket, start, &mut keep);
+            }
+            start = end;
+        }
+        (0..n).filter(|&i| keep[i]).collect()
+    }
+
+    #[test]
+    fn decimation_equals_the_plain_one() {
+        let mut rng = Rng(0x2545_f491_4f6c_dd1d);
+        for case in 0..2_000 {
+            let n = 2 + (rng.next() % 700) as usize;
+            let f = grid(n.max(2));
+            let n_series = 1 + (rng.next() % 4) as usize;
+            let series: Vec<Vec<Option<f64>>> = (0..n_series)
+                .map(|_| {
+                    // smooth, noisy, flat, with gaps and ties, infinite, and short ones
+                    // (no NaN: it has no order, and plot_data passes none)
+                    let style = rng.next() % 6;
+                    let len = if style == 5 { n / 2 } else { n };
+                    (0..len)
+                        .map(|i| {
+                            let r = rng.unit();
+                            match style {
+                                0 => Some((i as f64 * 0.01).sin() * 5.0 - 1.0),
+                                1 => Some(r - 0.5),
+                                2 => Some(3.0),
+                                3 => (r > 0.2).then_some((r * 4.0).round() - 2.0),
+                                4 => Some(if r < 0.05 {
+                                    f64::INFINITY
+                                } else if r < 0.1 {
+                                    f64::NEG_INFINITY
+                                } else {
+                                    r
+                                }),
+                                _ => (r > 0.5).then_some(r * 1e-9),
+                            }
+                        })
+                        .collect()
+                })
+                .collect();
+            let refs: Vec<&[Option<f64>]> = series.iter().map(|s| s.as_slice()).collect();
+            let keep_f: Vec<f64> = (0..rng.next() % 4)
+                .map(|_| 1e8 * 10f64.powf(3.5 * rng.unit() - 0.2))
+                .collect();
+            let target = [2, 10, 160, 300, 1000][case % 5];
+            assert_eq!(
+                decimate(&f, &refs, &keep_f, target),
+                decimate_plain(&f, &refs, &keep_f, target),
+                "case {case}"
+            );
+        }
+    }
+
+    /// [`Rdp::keep`] with the distance of every point worked out by division.
+    fn rdp_plain(points: &[(f64, f64)], eps: f64) -> Vec<bool> {
+        let n = points.len();
+        let mut keep = vec![n <= 2; n];
+        if n <= 2 {
+            return keep;
+        }
+        keep[0] = true;
+        keep[n - 1] = true;
+        let mut stack = vec![(0usize, n - 1)];
+        while let Some((a, b)) = stack.pop() {
+            if b <= a + 1 {
+                continue;
+            }
+            let (x0, y0) = points[a];
+            let (x1, y1) = points[b];
+            let (dx, dy) = (x1 - x0, y1 - y0);
+            let len = (dx * dx + dy * dy).sqrt();
+            let mut far = (a, 0.0);
+            for (i, &(x, y)) in points.iter().enumerate().take(b).skip(a + 1) {
+                let d = if len > 0.0 {
+                    ((x - x0) * dy - (y - y0) * dx).abs() / len
+                } else {
+                    ((x - x0).powi(2) + (y - y0).powi(2)).sqrt()
+                };
+                if d > far.1 {
+                    far = (i, d);
+                }
+            }
+            if far.1 > eps {
+                keep[far.0] = true;
+                stack.push((a, far.0));
+                stack.push((far.0, b));
+            }
+        }
+        keep
+    }
+
+    #[test]
+    fn line_simplification_equals_the_plain_one() {
+        let mut rng = Rng(0x9e37_79b9_7f4a_7c15);
+        let mut rdp = Rdp::default();
+        for case in 0..5_000 {
+            let n = (rng.next() % 300) as usize;
+            let style = rng.next() % 5;
+            let pts: Vec<(f64, f64)> = (0..n)
+                .map(|i| {
+                    let x = 58.0 + i as f64 * 568.0 / n.max(1) as f64;
+                    let r = rng.unit();
+                    let y = match style {
+                        // a curve, noise, a flat line, screen pixels (many equal
+                        // distances), a closed loop (ends at one spot)
+                        0 => 130.0 + 90.0 * (i as f64 * 0.05).sin(),
+                        1 => 30.0 + 200.0 * r,
+                        2 => 100.0,
+                        3 => (30.0 + 200.0 * r).round(),
+                        _ => 100.0 + 50.0 * (i as f64 * 6.283 / n.max(1) as f64).sin(),
+                    };
+                    if style == 4 {
+                        let t = i as f64 * 6.283_185_307_179_586 / (n.max(2) - 1) as f64;
+                        (300.0 + 80.0 * t.cos(), 130.0 + 80.0 * t.sin())
+                    } else {
+                        (x, y)
+                    }
+                })
+                .collect();
+            let eps = [0.3, 0.0, 1.0, 5.0][case % 4];
+            assert_eq!(rdp.keep(&pts, eps), rdp_plain(&pts, eps).as_slice(), "case {case}");
         }
     }
 
