@@ -10,7 +10,9 @@
 //! serves light, dark and print. That is about as much code as configuring a general
 //! library to do it, and it adds no dependency.
 
+use std::cell::RefCell;
 use std::fmt::Write as _;
+use std::rc::Rc;
 
 use crate::figures::{Kind, ViewFigures};
 use crate::model::LossBand;
@@ -660,12 +662,25 @@ struct XAxis {
     lh: f64,
     /// the x of every frequency
     xs: Vec<f64>,
+    /// the grid lines and labels, which depend on the ends alone
+    grid: Rc<Grid>,
+}
+
+/// The ticks of an axis with their grid lines and labels, as SVG text.
+struct Grid {
     /// the minor grid element, or nothing when there are no minor ticks
     minor: String,
     /// the major grid lines' part of the grid path
     major: String,
     /// each major tick's x and its label, escaped
     labels: Vec<(f64, String)>,
+}
+
+thread_local! {
+    /// The grid of the span this thread drew last, by the bits of its ends: the parts
+    /// of a library mostly share their sweep's span, and the grid is most of the cost
+    /// of an axis.
+    static LAST_GRID: RefCell<Option<((u64, u64), Rc<Grid>)>> = const { RefCell::new(None) };
 }
 
 impl XAxis {
@@ -677,41 +692,64 @@ impl XAxis {
             return None;
         }
         let (fl, fh) = (freq[0], freq[n - 1]);
-        let mut a = XAxis {
+        let (ll, lh) = (fl.log10(), fh.log10());
+        let x = |f: f64| x_of(f, ll, lh);
+        let key = (fl.to_bits(), fh.to_bits());
+        let grid = LAST_GRID.with_borrow_mut(|last| match last {
+            Some((k, g)) if *k == key => g.clone(),
+            _ => {
+                let g = Rc::new(Grid::of(fl, fh, x));
+                *last = Some((key, g.clone()));
+                g
+            }
+        });
+        Some(XAxis {
             fl,
             fh,
-            ll: fl.log10(),
-            lh: fh.log10(),
-            xs: Vec::new(),
-            minor: String::new(),
-            major: String::new(),
-            labels: Vec::new(),
-        };
-        a.xs = freq.iter().map(|&f| a.x(f)).collect();
-        let ticks = log_ticks(fl, fh);
-        if !ticks.minor.is_empty() {
-            a.minor.push_str("<path class=\"grid-minor\" d=\"");
-            for f in &ticks.minor {
-                let x = a.x(*f);
-                put!(&mut a.minor; "M", Px(x), VLINE);
-            }
-            a.minor.push_str("\"/>");
-        }
-        for f in &ticks.major {
-            let x = a.x(*f);
-            put!(&mut a.major; "M", Px(x), VLINE);
-            let mut label = String::new();
-            push_esc(&mut label, &freq_label(*f));
-            a.labels.push((x, label));
-        }
-        Some(a)
+            ll,
+            lh,
+            xs: freq.iter().map(|&f| x(f)).collect(),
+            grid,
+        })
     }
 
     /// The x of frequency `f`.
     fn x(&self, f: f64) -> f64 {
-        let (x0, x1) = (LEFT, W - RIGHT);
-        x0 + (f.log10() - self.ll) / (self.lh - self.ll) * (x1 - x0)
+        x_of(f, self.ll, self.lh)
     }
+}
+
+impl Grid {
+    /// The grid of an axis from `fl` to `fh`, `x` giving a frequency's x.
+    fn of(fl: f64, fh: f64, x: impl Fn(f64) -> f64) -> Grid {
+        let mut g = Grid {
+            minor: String::new(),
+            major: String::new(),
+            labels: Vec::new(),
+        };
+        let ticks = log_ticks(fl, fh);
+        if !ticks.minor.is_empty() {
+            g.minor.push_str("<path class=\"grid-minor\" d=\"");
+            for f in &ticks.minor {
+                put!(&mut g.minor; "M", Px(x(*f)), VLINE);
+            }
+            g.minor.push_str("\"/>");
+        }
+        for f in &ticks.major {
+            let x = x(*f);
+            put!(&mut g.major; "M", Px(x), VLINE);
+            let mut label = String::new();
+            push_esc(&mut label, &freq_label(*f));
+            g.labels.push((x, label));
+        }
+        g
+    }
+}
+
+/// The x of frequency `f` on a log axis from 10^`ll` to 10^`lh`.
+fn x_of(f: f64, ll: f64, lh: f64) -> f64 {
+    let (x0, x1) = (LEFT, W - RIGHT);
+    x0 + (f.log10() - ll) / (lh - ll) * (x1 - x0)
 }
 
 /// The rest of a vertical line from the top of the plot area to its bottom.
@@ -798,13 +836,13 @@ fn chart_into(o: &mut String, c: &Chart, axis: Option<&XAxis>) {
     }
 
     // grid and ticks
-    o.push_str(&axis.minor);
-    put!(o; "<path class=\"grid\" d=\"", &axis.major);
+    o.push_str(&axis.grid.minor);
+    put!(o; "<path class=\"grid\" d=\"", &axis.grid.major);
     for v in &yt {
         put!(o; "M", Whole(x0), " ", Px(yv(*v)), "H", Whole(x1));
     }
     o.push_str("\"/><g class=\"xlabels\">");
-    for (x, label) in &axis.labels {
+    for (x, label) in &axis.grid.labels {
         put!(o; "<text x=\"", Px(*x), "\" y=\"", Px(axis_y + 16.0), "\">", label, "</text>");
     }
     o.push_str("</g>");
