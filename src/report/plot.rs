@@ -676,11 +676,14 @@ struct Grid {
     labels: Vec<(f64, String)>,
 }
 
+/// The bits of a span's two ends, as [`LAST_GRID`] knows it by.
+type SpanBits = (u64, u64);
+
 thread_local! {
     /// The grid of the span this thread drew last, by the bits of its ends: the parts
     /// of a library mostly share their sweep's span, and the grid is most of the cost
     /// of an axis.
-    static LAST_GRID: RefCell<Option<((u64, u64), Rc<Grid>)>> = const { RefCell::new(None) };
+    static LAST_GRID: RefCell<Option<(SpanBits, Rc<Grid>)>> = const { RefCell::new(None) };
 }
 
 impl XAxis {
@@ -1305,25 +1308,26 @@ mod tests {
                 .map(|i| {
                     let x = 58.0 + i as f64 * 568.0 / n.max(1) as f64;
                     let r = rng.unit();
-                    let y = match style {
+                    match style {
                         // a curve, noise, a flat line, screen pixels (many equal
-                        // distances), a closed loop (ends at one spot)
-                        0 => 130.0 + 90.0 * (i as f64 * 0.05).sin(),
-                        1 => 30.0 + 200.0 * r,
-                        2 => 100.0,
-                        3 => (30.0 + 200.0 * r).round(),
-                        _ => 100.0 + 50.0 * (i as f64 * 6.283 / n.max(1) as f64).sin(),
-                    };
-                    if style == 4 {
-                        let t = i as f64 * 6.283_185_307_179_586 / (n.max(2) - 1) as f64;
-                        (300.0 + 80.0 * t.cos(), 130.0 + 80.0 * t.sin())
-                    } else {
-                        (x, y)
+                        // distances), a closed loop (both ends at one spot)
+                        0 => (x, 130.0 + 90.0 * (i as f64 * 0.05).sin()),
+                        1 => (x, 30.0 + 200.0 * r),
+                        2 => (x, 100.0),
+                        3 => (x.round(), (30.0 + 200.0 * r).round()),
+                        _ => {
+                            let t = std::f64::consts::TAU * i as f64 / (n.max(2) - 1) as f64;
+                            (300.0 + 80.0 * t.cos(), 130.0 + 80.0 * t.sin())
+                        }
                     }
                 })
                 .collect();
             let eps = [0.3, 0.0, 1.0, 5.0][case % 4];
-            assert_eq!(rdp.keep(&pts, eps), rdp_plain(&pts, eps).as_slice(), "case {case}");
+            assert_eq!(
+                rdp.keep(&pts, eps),
+                rdp_plain(&pts, eps).as_slice(),
+                "case {case}"
+            );
         }
     }
 
