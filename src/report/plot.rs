@@ -10,7 +10,9 @@
 //! serves light, dark and print. That is about as much code as configuring a general
 //! library to do it, and it adds no dependency.
 
+use std::cell::RefCell;
 use std::fmt::Write as _;
+use std::rc::Rc;
 
 use crate::figures::{Kind, ViewFigures};
 use crate::model::LossBand;
@@ -105,12 +107,28 @@ pub fn round_sig(v: f64, digits: i32) -> f64 {
         return v;
     }
     let e = floor_log10(v.abs());
-    let scale = 10f64.powi(digits - 1 - e);
+    let scale = pow10i(digits - 1 - e);
     let r = (v * scale).round() / scale;
     if r.is_finite() {
         r
     } else {
         v
+    }
+}
+
+/// 10^k for k = 0 … 22: the powers of ten that are exact as doubles.
+const EXACT_POW10: [f64; 23] = [
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+];
+
+/// `10f64.powi(n)`, from a table for |n| ≤ 22: the same double (powi multiplies exact
+/// powers of ten there and takes the reciprocal for n < 0) without its loop.
+fn pow10i(n: i32) -> f64 {
+    match EXACT_POW10.get(n.unsigned_abs() as usize) {
+        Some(p) if n >= 0 => *p,
+        Some(p) => 1.0 / p,
+        None => 10f64.powi(n),
     }
 }
 
@@ -146,7 +164,7 @@ fn floor_log10(a: f64) -> i32 {
 }
 
 /// Indices of the points to keep when drawing `series` (all on the grid `freq`, which
-/// must be positive and increasing) with about `target` points.
+/// must be positive and increasing; values not NaN) with about `target` points.
 ///
 /// Kept always: both ends; each series' largest and smallest value; both points around
 /// every sign change (so the zero crossing at SRF is drawn where it is) and around every
@@ -166,23 +184,11 @@ pub fn decimate(
     let mut keep = vec![false; n];
     keep[0] = true;
     keep[n - 1] = true;
+    // (each series' largest and smallest value need no pass of their own: the buckets
+    // below cover every point, and the first extreme of the whole series is the first
+    // extreme of its bucket, which the bucket walk keeps)
     for s in series {
         let s = &s[..n.min(s.len())];
-        let mut hi: Option<(usize, f64)> = None;
-        let mut lo: Option<(usize, f64)> = None;
-        for (i, v) in s.iter().enumerate() {
-            if let Some(v) = *v {
-                if hi.is_none_or(|(_, h)| v > h) {
-                    hi = Some((i, v));
-                }
-                if lo.is_none_or(|(_, l)| v < l) {
-                    lo = Some((i, v));
-                }
-            }
-        }
-        for (i, _) in hi.into_iter().chain(lo) {
-            keep[i] = true;
-        }
         for i in 0..s.len().saturating_sub(1) {
             let change = match (s[i], s[i + 1]) {
                 (Some(a), Some(b)) => (a < 0.0) != (b < 0.0),
@@ -227,25 +233,36 @@ pub fn decimate(
         }
         keep[start] = true;
         for s in series {
-            let mut hi: Option<(usize, f64)> = None;
-            let mut lo: Option<(usize, f64)> = None;
-            for (i, v) in s.iter().enumerate().take(end.min(s.len())).skip(start) {
-                if let Some(v) = *v {
-                    if hi.is_none_or(|(_, h)| v > h) {
-                        hi = Some((i, v));
-                    }
-                    if lo.is_none_or(|(_, l)| v < l) {
-                        lo = Some((i, v));
-                    }
-                }
-            }
-            for (i, _) in hi.into_iter().chain(lo) {
-                keep[i] = true;
+            let bucket = s.get(start..end.min(s.len())).unwrap_or_default();
+            if let Some((hi, lo)) = extremes(bucket) {
+                keep[start + hi] = true;
+                keep[start + lo] = true;
             }
         }
         start = end;
     }
     (0..n).filter(|&i| keep[i]).collect()
+}
+
+/// The indices of the first largest and the first smallest defined value of `s`; None
+/// when it has none.
+fn extremes(s: &[Option<f64>]) -> Option<(usize, usize)> {
+    let mut best: Option<((usize, f64), (usize, f64))> = None;
+    for (i, v) in s.iter().enumerate() {
+        let Some(v) = *v else { continue };
+        match &mut best {
+            None => best = Some(((i, v), (i, v))),
+            Some((hi, lo)) => {
+                if v > hi.1 {
+                    *hi = (i, v);
+                }
+                if v < lo.1 {
+                    *lo = (i, v);
+                }
+            }
+        }
+    }
+    best.map(|(hi, lo)| (hi.0, lo.0))
 }
 
 /// Ticks of a log-frequency axis.
@@ -394,17 +411,21 @@ impl Rdp {
             let (x1, y1) = points[b];
             let (dx, dy) = (x1 - x0, y1 - y0);
             let len = (dx * dx + dy * dy).sqrt();
-            let mut far = (a, 0.0);
-            for (i, &(x, y)) in points.iter().enumerate().take(b).skip(a + 1) {
-                let d = if len > 0.0 {
-                    ((x - x0) * dy - (y - y0) * dx).abs() / len
-                } else {
-                    ((x - x0).powi(2) + (y - y0).powi(2)).sqrt()
-                };
-                if d > far.1 {
-                    far = (i, d);
+            let inner = &points[a + 1..b];
+            let far = if len > 0.0 {
+                farthest_from_chord(inner, (x0, y0), (dx, dy), len)
+            } else {
+                // both ends at one spot: the distance to it
+                let mut far = (0, 0.0);
+                for (i, &(x, y)) in inner.iter().enumerate() {
+                    let d = ((x - x0).powi(2) + (y - y0).powi(2)).sqrt();
+                    if d > far.1 {
+                        far = (i, d);
+                    }
                 }
-            }
+                far
+            };
+            let far = (a + 1 + far.0, far.1);
             if far.1 > eps {
                 self.keep[far.0] = true;
                 self.stack.push((a, far.0));
@@ -413,6 +434,32 @@ impl Rdp {
         }
         &self.keep
     }
+}
+
+/// The first point of `inner` farthest from the chord from `p0` along `(dx, dy)` (of
+/// length `len` > 0) and its distance |cross| / len, or (0, 0.0) when none is off the
+/// chord. The distance needs a division, but a point can only be farther than the
+/// farthest so far when its cross product is larger, so only those are divided: the
+/// same point and distance as dividing every one.
+fn farthest_from_chord(
+    inner: &[(f64, f64)],
+    (x0, y0): (f64, f64),
+    (dx, dy): (f64, f64),
+    len: f64,
+) -> (usize, f64) {
+    let mut far = (0, 0.0);
+    let mut far_cross = 0.0;
+    for (i, &(x, y)) in inner.iter().enumerate() {
+        let cross = ((x - x0) * dy - (y - y0) * dx).abs();
+        if cross > far_cross {
+            let d = cross / len;
+            if d > far.1 {
+                far = (i, d);
+                far_cross = cross;
+            }
+        }
+    }
+    far
 }
 
 // ---------------------------------------------------------------------------
@@ -615,12 +662,28 @@ struct XAxis {
     lh: f64,
     /// the x of every frequency
     xs: Vec<f64>,
+    /// the grid lines and labels, which depend on the ends alone
+    grid: Rc<Grid>,
+}
+
+/// The ticks of an axis with their grid lines and labels, as SVG text.
+struct Grid {
     /// the minor grid element, or nothing when there are no minor ticks
     minor: String,
     /// the major grid lines' part of the grid path
     major: String,
     /// each major tick's x and its label, escaped
     labels: Vec<(f64, String)>,
+}
+
+/// The bits of a span's two ends, as [`LAST_GRID`] knows it by.
+type SpanBits = (u64, u64);
+
+thread_local! {
+    /// The grid of the span this thread drew last, by the bits of its ends: the parts
+    /// of a library mostly share their sweep's span, and the grid is most of the cost
+    /// of an axis.
+    static LAST_GRID: RefCell<Option<(SpanBits, Rc<Grid>)>> = const { RefCell::new(None) };
 }
 
 impl XAxis {
@@ -632,41 +695,64 @@ impl XAxis {
             return None;
         }
         let (fl, fh) = (freq[0], freq[n - 1]);
-        let mut a = XAxis {
+        let (ll, lh) = (fl.log10(), fh.log10());
+        let x = |f: f64| x_of(f, ll, lh);
+        let key = (fl.to_bits(), fh.to_bits());
+        let grid = LAST_GRID.with_borrow_mut(|last| match last {
+            Some((k, g)) if *k == key => g.clone(),
+            _ => {
+                let g = Rc::new(Grid::of(fl, fh, x));
+                *last = Some((key, g.clone()));
+                g
+            }
+        });
+        Some(XAxis {
             fl,
             fh,
-            ll: fl.log10(),
-            lh: fh.log10(),
-            xs: Vec::new(),
-            minor: String::new(),
-            major: String::new(),
-            labels: Vec::new(),
-        };
-        a.xs = freq.iter().map(|&f| a.x(f)).collect();
-        let ticks = log_ticks(fl, fh);
-        if !ticks.minor.is_empty() {
-            a.minor.push_str("<path class=\"grid-minor\" d=\"");
-            for f in &ticks.minor {
-                let x = a.x(*f);
-                put!(&mut a.minor; "M", Px(x), VLINE);
-            }
-            a.minor.push_str("\"/>");
-        }
-        for f in &ticks.major {
-            let x = a.x(*f);
-            put!(&mut a.major; "M", Px(x), VLINE);
-            let mut label = String::new();
-            push_esc(&mut label, &freq_label(*f));
-            a.labels.push((x, label));
-        }
-        Some(a)
+            ll,
+            lh,
+            xs: freq.iter().map(|&f| x(f)).collect(),
+            grid,
+        })
     }
 
     /// The x of frequency `f`.
     fn x(&self, f: f64) -> f64 {
-        let (x0, x1) = (LEFT, W - RIGHT);
-        x0 + (f.log10() - self.ll) / (self.lh - self.ll) * (x1 - x0)
+        x_of(f, self.ll, self.lh)
     }
+}
+
+impl Grid {
+    /// The grid of an axis from `fl` to `fh`, `x` giving a frequency's x.
+    fn of(fl: f64, fh: f64, x: impl Fn(f64) -> f64) -> Grid {
+        let mut g = Grid {
+            minor: String::new(),
+            major: String::new(),
+            labels: Vec::new(),
+        };
+        let ticks = log_ticks(fl, fh);
+        if !ticks.minor.is_empty() {
+            g.minor.push_str("<path class=\"grid-minor\" d=\"");
+            for f in &ticks.minor {
+                put!(&mut g.minor; "M", Px(x(*f)), VLINE);
+            }
+            g.minor.push_str("\"/>");
+        }
+        for f in &ticks.major {
+            let x = x(*f);
+            put!(&mut g.major; "M", Px(x), VLINE);
+            let mut label = String::new();
+            push_esc(&mut label, &freq_label(*f));
+            g.labels.push((x, label));
+        }
+        g
+    }
+}
+
+/// The x of frequency `f` on a log axis from 10^`ll` to 10^`lh`.
+fn x_of(f: f64, ll: f64, lh: f64) -> f64 {
+    let (x0, x1) = (LEFT, W - RIGHT);
+    x0 + (f.log10() - ll) / (lh - ll) * (x1 - x0)
 }
 
 /// The rest of a vertical line from the top of the plot area to its bottom.
@@ -753,13 +839,13 @@ fn chart_into(o: &mut String, c: &Chart, axis: Option<&XAxis>) {
     }
 
     // grid and ticks
-    o.push_str(&axis.minor);
-    put!(o; "<path class=\"grid\" d=\"", &axis.major);
+    o.push_str(&axis.grid.minor);
+    put!(o; "<path class=\"grid\" d=\"", &axis.grid.major);
     for v in &yt {
         put!(o; "M", Whole(x0), " ", Px(yv(*v)), "H", Whole(x1));
     }
     o.push_str("\"/><g class=\"xlabels\">");
-    for (x, label) in &axis.labels {
+    for (x, label) in &axis.grid.labels {
         put!(o; "<text x=\"", Px(*x), "\" y=\"", Px(axis_y + 16.0), "\">", label, "</text>");
     }
     o.push_str("</g>");
@@ -1029,6 +1115,222 @@ mod tests {
         }
     }
 
+    /// A small xorshift64 generator for the comparisons below.
+    struct Rng(u64);
+
+    impl Rng {
+        fn next(&mut self) -> u64 {
+            self.0 ^= self.0 << 13;
+            self.0 ^= self.0 >> 7;
+            self.0 ^= self.0 << 17;
+            self.0
+        }
+        /// uniform in [0, 1)
+        fn unit(&mut self) -> f64 {
+            (self.next() >> 11) as f64 / (1u64 << 53) as f64
+        }
+    }
+
+    /// [`decimate`] as first written: a pass for each series' extremes of its own.
+    fn decimate_plain(
+        freq: &[f64],
+        series: &[&[Option<f64>]],
+        keep_f: &[f64],
+        target: usize,
+    ) -> Vec<usize> {
+        let n = freq.len();
+        if n <= target.max(2) {
+            return (0..n).collect();
+        }
+        let extremes = |s: &[Option<f64>], from: usize, keep: &mut [bool]| {
+            let mut hi: Option<(usize, f64)> = None;
+            let mut lo: Option<(usize, f64)> = None;
+            for (i, v) in s.iter().enumerate() {
+                if let Some(v) = *v {
+                    if hi.is_none_or(|(_, h)| v > h) {
+                        hi = Some((i, v));
+                    }
+                    if lo.is_none_or(|(_, l)| v < l) {
+                        lo = Some((i, v));
+                    }
+                }
+            }
+            for (i, _) in hi.into_iter().chain(lo) {
+                keep[from + i] = true;
+            }
+        };
+        let mut keep = vec![false; n];
+        keep[0] = true;
+        keep[n - 1] = true;
+        for s in series {
+            let s = &s[..n.min(s.len())];
+            extremes(s, 0, &mut keep);
+            for i in 0..s.len().saturating_sub(1) {
+                let change = match (s[i], s[i + 1]) {
+                    (Some(a), Some(b)) => (a < 0.0) != (b < 0.0),
+                    (None, None) => false,
+                    _ => true,
+                };
+                if change {
+                    keep[i] = true;
+                    keep[i + 1] = true;
+                }
+            }
+        }
+        for &f in keep_f {
+            let j = freq.partition_point(|&x| x < f);
+            if j < n {
+                keep[j] = true;
+            }
+            if j > 0 {
+                keep[j - 1] = true;
+            }
+        }
+        let buckets = (target / (1 + series.len())).max(1);
+        let lf: Vec<f64> = freq.iter().map(|f| f.ln()).collect();
+        let (l0, l1) = (lf[0], lf[n - 1]);
+        let width = (l1 - l0) / buckets as f64;
+        let mut start = 0;
+        while start < n {
+            let b = if width > 0.0 {
+                (((lf[start] - l0) / width).floor() as usize).min(buckets - 1)
+            } else {
+                buckets - 1
+            };
+            let edge = l0 + width * (b + 1) as f64;
+            let mut end = start + 1;
+            while end < n && (b == buckets - 1 || lf[end] < edge) {
+                end += 1;
+            }
+            keep[start] = true;
+            for s in series {
+                let bucket = s.get(start..end.min(s.len())).unwrap_or_default();
+                extremes(bucket, start, &mut keep);
+            }
+            start = end;
+        }
+        (0..n).filter(|&i| keep[i]).collect()
+    }
+
+    #[test]
+    fn decimation_equals_the_plain_one() {
+        let mut rng = Rng(0x2545_f491_4f6c_dd1d);
+        for case in 0..2_000 {
+            let n = 2 + (rng.next() % 700) as usize;
+            let f = grid(n.max(2));
+            let n_series = 1 + (rng.next() % 4) as usize;
+            let series: Vec<Vec<Option<f64>>> = (0..n_series)
+                .map(|_| {
+                    // smooth, noisy, flat, with gaps and ties, infinite, and short ones
+                    // (no NaN: it has no order, and plot_data passes none)
+                    let style = rng.next() % 6;
+                    let len = if style == 5 { n / 2 } else { n };
+                    (0..len)
+                        .map(|i| {
+                            let r = rng.unit();
+                            match style {
+                                0 => Some((i as f64 * 0.01).sin() * 5.0 - 1.0),
+                                1 => Some(r - 0.5),
+                                2 => Some(3.0),
+                                3 => (r > 0.2).then_some((r * 4.0).round() - 2.0),
+                                4 => Some(if r < 0.05 {
+                                    f64::INFINITY
+                                } else if r < 0.1 {
+                                    f64::NEG_INFINITY
+                                } else {
+                                    r
+                                }),
+                                _ => (r > 0.5).then_some(r * 1e-9),
+                            }
+                        })
+                        .collect()
+                })
+                .collect();
+            let refs: Vec<&[Option<f64>]> = series.iter().map(|s| s.as_slice()).collect();
+            let keep_f: Vec<f64> = (0..rng.next() % 4)
+                .map(|_| 1e8 * 10f64.powf(3.5 * rng.unit() - 0.2))
+                .collect();
+            let target = [2, 10, 160, 300, 1000][case % 5];
+            assert_eq!(
+                decimate(&f, &refs, &keep_f, target),
+                decimate_plain(&f, &refs, &keep_f, target),
+                "case {case}"
+            );
+        }
+    }
+
+    /// [`Rdp::keep`] with the distance of every point worked out by division.
+    fn rdp_plain(points: &[(f64, f64)], eps: f64) -> Vec<bool> {
+        let n = points.len();
+        let mut keep = vec![n <= 2; n];
+        if n <= 2 {
+            return keep;
+        }
+        keep[0] = true;
+        keep[n - 1] = true;
+        let mut stack = vec![(0usize, n - 1)];
+        while let Some((a, b)) = stack.pop() {
+            if b <= a + 1 {
+                continue;
+            }
+            let (x0, y0) = points[a];
+            let (x1, y1) = points[b];
+            let (dx, dy) = (x1 - x0, y1 - y0);
+            let len = (dx * dx + dy * dy).sqrt();
+            let mut far = (a, 0.0);
+            for (i, &(x, y)) in points.iter().enumerate().take(b).skip(a + 1) {
+                let d = if len > 0.0 {
+                    ((x - x0) * dy - (y - y0) * dx).abs() / len
+                } else {
+                    ((x - x0).powi(2) + (y - y0).powi(2)).sqrt()
+                };
+                if d > far.1 {
+                    far = (i, d);
+                }
+            }
+            if far.1 > eps {
+                keep[far.0] = true;
+                stack.push((a, far.0));
+                stack.push((far.0, b));
+            }
+        }
+        keep
+    }
+
+    #[test]
+    fn line_simplification_equals_the_plain_one() {
+        let mut rng = Rng(0x9e37_79b9_7f4a_7c15);
+        let mut rdp = Rdp::default();
+        for case in 0..5_000 {
+            let n = (rng.next() % 300) as usize;
+            let style = rng.next() % 5;
+            let pts: Vec<(f64, f64)> = (0..n)
+                .map(|i| {
+                    let x = 58.0 + i as f64 * 568.0 / n.max(1) as f64;
+                    let r = rng.unit();
+                    match style {
+                        // a curve, noise, a flat line, screen pixels (many equal
+                        // distances), a closed loop (both ends at one spot)
+                        0 => (x, 130.0 + 90.0 * (i as f64 * 0.05).sin()),
+                        1 => (x, 30.0 + 200.0 * r),
+                        2 => (x, 100.0),
+                        3 => (x.round(), (30.0 + 200.0 * r).round()),
+                        _ => {
+                            let t = std::f64::consts::TAU * i as f64 / (n.max(2) - 1) as f64;
+                            (300.0 + 80.0 * t.cos(), 130.0 + 80.0 * t.sin())
+                        }
+                    }
+                })
+                .collect();
+            let eps = [0.3, 0.0, 1.0, 5.0][case % 4];
+            assert_eq!(
+                rdp.keep(&pts, eps),
+                rdp_plain(&pts, eps).as_slice(),
+                "case {case}"
+            );
+        }
+    }
+
     #[test]
     fn simplify_drops_collinear() {
         let pts: Vec<(f64, f64)> = (0..100).map(|i| (i as f64, 2.0 * i as f64)).collect();
@@ -1087,6 +1389,13 @@ mod tests {
         }
         for v in vals {
             assert_eq!(floor_log10(v), v.log10().floor() as i32, "{v:e}");
+        }
+    }
+
+    #[test]
+    fn pow10i_is_powi() {
+        for n in -400..=400 {
+            assert_eq!(pow10i(n).to_bits(), 10f64.powi(n).to_bits(), "{n}");
         }
     }
 
