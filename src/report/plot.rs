@@ -163,6 +163,35 @@ fn floor_log10(a: f64) -> i32 {
     e
 }
 
+/// Mark in `keep` the points on either side of a sign change or a gap of any series,
+/// and the two points around each frequency of `keep_f`.
+fn keep_crossings(freq: &[f64], series: &[&[Option<f64>]], keep_f: &[f64], keep: &mut [bool]) {
+    let n = keep.len();
+    for s in series {
+        let s = &s[..n.min(s.len())];
+        for i in 0..s.len().saturating_sub(1) {
+            let change = match (s[i], s[i + 1]) {
+                (Some(a), Some(b)) => (a < 0.0) != (b < 0.0),
+                (None, None) => false,
+                _ => true,
+            };
+            if change {
+                keep[i] = true;
+                keep[i + 1] = true;
+            }
+        }
+    }
+    for &f in keep_f {
+        let j = freq.partition_point(|&x| x < f);
+        if j < n {
+            keep[j] = true;
+        }
+        if j > 0 {
+            keep[j - 1] = true;
+        }
+    }
+}
+
 /// Indices of the points to keep when drawing `series` (all on the grid `freq`, which
 /// must be positive and increasing; values not NaN) with about `target` points.
 ///
@@ -187,61 +216,53 @@ pub fn decimate(
     // (each series' largest and smallest value need no pass of their own: the buckets
     // below cover every point, and the first extreme of the whole series is the first
     // extreme of its bucket, which the bucket walk keeps)
-    for s in series {
-        let s = &s[..n.min(s.len())];
-        for i in 0..s.len().saturating_sub(1) {
-            let change = match (s[i], s[i + 1]) {
-                (Some(a), Some(b)) => (a < 0.0) != (b < 0.0),
-                (None, None) => false,
-                _ => true,
-            };
-            if change {
-                keep[i] = true;
-                keep[i + 1] = true;
-            }
-        }
-    }
-    for &f in keep_f {
-        let j = freq.partition_point(|&x| x < f);
-        if j < n {
-            keep[j] = true;
-        }
-        if j > 0 {
-            keep[j - 1] = true;
-        }
-    }
+    keep_crossings(freq, series, keep_f, &mut keep);
     // Smooth curves keep about two points per bucket (their extremes sit at the bucket
     // ends); only noisy data fills a bucket's 1 + 2·series slots, so size the buckets
     // for the usual case and accept up to about twice the target for noise.
     let per_bucket = 1 + series.len();
     let buckets = (target / per_bucket).max(1);
-    // each point's log frequency once (the bucket walk reads most of them twice)
+    for b in log_buckets(freq, buckets) {
+        keep[b.start] = true;
+        for s in series {
+            let bucket = s.get(b.start..b.end.min(s.len())).unwrap_or_default();
+            if let Some((hi, lo)) = extremes(bucket) {
+                keep[b.start + hi] = true;
+                keep[b.start + lo] = true;
+            }
+        }
+    }
+    (0..n).filter(|&i| keep[i]).collect()
+}
+
+/// `freq` (positive, increasing, at least one point) cut into `count` ≥ 1 equal-width
+/// buckets in log frequency: the index ranges of the non-empty ones, in order, covering
+/// every point.
+fn log_buckets(freq: &[f64], count: usize) -> impl Iterator<Item = std::ops::Range<usize>> {
+    let n = freq.len();
+    // each point's log frequency once (the walk reads most of them twice)
     let lf: Vec<f64> = freq.iter().map(|f| f.ln()).collect();
     let (l0, l1) = (lf[0], lf[n - 1]);
-    let width = (l1 - l0) / buckets as f64;
+    let width = (l1 - l0) / count as f64;
     let mut start = 0;
-    while start < n {
+    std::iter::from_fn(move || {
+        if start >= n {
+            return None;
+        }
         let b = if width > 0.0 {
-            (((lf[start] - l0) / width).floor() as usize).min(buckets - 1)
+            (((lf[start] - l0) / width).floor() as usize).min(count - 1)
         } else {
-            buckets - 1
+            count - 1
         };
         let edge = l0 + width * (b + 1) as f64;
         let mut end = start + 1;
-        while end < n && (b == buckets - 1 || lf[end] < edge) {
+        while end < n && (b == count - 1 || lf[end] < edge) {
             end += 1;
         }
-        keep[start] = true;
-        for s in series {
-            let bucket = s.get(start..end.min(s.len())).unwrap_or_default();
-            if let Some((hi, lo)) = extremes(bucket) {
-                keep[start + hi] = true;
-                keep[start + lo] = true;
-            }
-        }
+        let range = start..end;
         start = end;
-    }
-    (0..n).filter(|&i| keep[i]).collect()
+        Some(range)
+    })
 }
 
 /// The indices of the first largest and the first smallest defined value of `s`; None
@@ -1163,51 +1184,16 @@ mod tests {
         keep[0] = true;
         keep[n - 1] = true;
         for s in series {
-            let s = &s[..n.min(s.len())];
-            extremes(s, 0, &mut keep);
-            for i in 0..s.len().saturating_sub(1) {
-                let change = match (s[i], s[i + 1]) {
-                    (Some(a), Some(b)) => (a < 0.0) != (b < 0.0),
-                    (None, None) => false,
-                    _ => true,
-                };
-                if change {
-                    keep[i] = true;
-                    keep[i + 1] = true;
-                }
-            }
+            extremes(&s[..n.min(s.len())], 0, &mut keep);
         }
-        for &f in keep_f {
-            let j = freq.partition_point(|&x| x < f);
-            if j < n {
-                keep[j] = true;
-            }
-            if j > 0 {
-                keep[j - 1] = true;
-            }
-        }
+        keep_crossings(freq, series, keep_f, &mut keep);
         let buckets = (target / (1 + series.len())).max(1);
-        let lf: Vec<f64> = freq.iter().map(|f| f.ln()).collect();
-        let (l0, l1) = (lf[0], lf[n - 1]);
-        let width = (l1 - l0) / buckets as f64;
-        let mut start = 0;
-        while start < n {
-            let b = if width > 0.0 {
-                (((lf[start] - l0) / width).floor() as usize).min(buckets - 1)
-            } else {
-                buckets - 1
-            };
-            let edge = l0 + width * (b + 1) as f64;
-            let mut end = start + 1;
-            while end < n && (b == buckets - 1 || lf[end] < edge) {
-                end += 1;
-            }
-            keep[start] = true;
+        for b in log_buckets(freq, buckets) {
+            keep[b.start] = true;
             for s in series {
-                let bucket = s.get(start..end.min(s.len())).unwrap_or_default();
-                extremes(bucket, start, &mut keep);
+                let bucket = s.get(b.start..b.end.min(s.len())).unwrap_or_default();
+                extremes(bucket, b.start, &mut keep);
             }
-            start = end;
         }
         (0..n).filter(|&i| keep[i]).collect()
     }
