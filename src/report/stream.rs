@@ -60,10 +60,13 @@ impl Spill {
 }
 
 /// A report's body, written into the temporary file that is to become the report
-/// (see the module doc); the file is removed unless [`Draft::place`] put it in place.
+/// (see the module doc). On Linux the file has no name until [`Draft::place`] puts it
+/// in place (`O_TMPFILE`), so a run that is killed leaves nothing behind; elsewhere it
+/// is a named temporary file beside the report, removed unless it was put in place.
 struct Draft {
     w: BufWriter<File>,
-    tmp: PathBuf,
+    /// the file's name; None while it has none
+    tmp: Option<PathBuf>,
     /// bytes written
     len: u64,
     /// try to insert the head in front of the body (off: always copy, for tests)
@@ -74,14 +77,20 @@ struct Draft {
 
 impl Draft {
     fn new(report: &Path) -> io::Result<Draft> {
-        let tmp = temp_beside(report)?;
-        // read back when the body has to be copied after all
-        let f = File::options()
-            .read(true)
-            .write(true)
-            .create(true)
-            .truncate(true)
-            .open(&tmp)?;
+        let (f, tmp) = match unnamed_beside(report) {
+            Some(f) => (f, None),
+            None => {
+                let tmp = temp_beside(report)?;
+                // read back when the body has to be copied after all
+                let f = File::options()
+                    .read(true)
+                    .write(true)
+                    .create(true)
+                    .truncate(true)
+                    .open(&tmp)?;
+                (f, Some(tmp))
+            }
+        };
         Ok(Draft {
             w: BufWriter::with_capacity(64 * 1024, f),
             tmp,
@@ -112,9 +121,14 @@ impl Draft {
         prefix: impl FnOnce(&mut dyn Write) -> io::Result<()>,
         suffix: &[u8],
     ) -> io::Result<()> {
-        let tmp = std::mem::take(&mut self.tmp);
+        let tmp = self.tmp.take();
+        let forget = |tmp: &Option<PathBuf>| {
+            if let Some(t) = tmp {
+                let _ = std::fs::remove_file(t);
+            }
+        };
         let fail = |e: io::Error| {
-            let _ = std::fs::remove_file(&tmp);
+            forget(&tmp);
             super::with_path(path, e)
         };
         let mut f = match self.w.flush().and_then(|()| self.w.get_ref().try_clone()) {
@@ -136,9 +150,16 @@ impl Draft {
                 f.seek(SeekFrom::End(0))?;
                 f.write_all(suffix)
             })();
-            return match written {
-                Ok(()) => commit(f, &tmp, path, true),
-                Err(e) => Err(fail(e)),
+            if let Err(e) = written {
+                return Err(fail(e));
+            }
+            return match tmp.or_else(|| name_beside(&f, path)) {
+                Some(t) => commit(f, &t, path, true),
+                // the finished report has no name and cannot be given one: copy it
+                None => f
+                    .seek(SeekFrom::Start(0))
+                    .map_err(|e| super::with_path(path, e))
+                    .and_then(|_| atomic_write_stream(path, |w| io::copy(&mut &f, w).map(drop))),
             };
         }
         let copied = f.seek(SeekFrom::Start(0)).map_err(&fail).and_then(|_| {
@@ -149,17 +170,54 @@ impl Draft {
                 w.write_all(suffix)
             })
         });
-        let _ = std::fs::remove_file(&tmp);
+        forget(&tmp);
         copied
     }
 }
 
 impl Drop for Draft {
     fn drop(&mut self) {
-        if !self.tmp.as_os_str().is_empty() {
-            let _ = std::fs::remove_file(&self.tmp);
+        if let Some(t) = &self.tmp {
+            let _ = std::fs::remove_file(t);
         }
     }
+}
+
+/// A file without a name in the folder of `report` (Linux `O_TMPFILE`, mode 0666 less
+/// the umask, as a created report gets), or None where the system cannot make one.
+#[cfg(target_os = "linux")]
+fn unnamed_beside(report: &Path) -> Option<File> {
+    use rustix::fs::{open, Mode, OFlags};
+    let folder = match report.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p,
+        _ => Path::new("."),
+    };
+    let flags = OFlags::TMPFILE | OFlags::RDWR | OFlags::CLOEXEC;
+    open(folder, flags, Mode::from_raw_mode(0o666))
+        .ok()
+        .map(File::from)
+}
+
+#[cfg(not(target_os = "linux"))]
+fn unnamed_beside(_: &Path) -> Option<File> {
+    None
+}
+
+/// Give the unnamed file `f` a temporary name beside `report` (a link through
+/// `/proc/self/fd`); None where that fails.
+#[cfg(target_os = "linux")]
+fn name_beside(f: &File, report: &Path) -> Option<PathBuf> {
+    use rustix::fs::{linkat, AtFlags, CWD};
+    use std::os::fd::AsRawFd;
+    let tmp = temp_beside(report).ok()?;
+    let fd = format!("/proc/self/fd/{}", f.as_raw_fd());
+    linkat(CWD, fd.as_str(), CWD, &tmp, AtFlags::SYMLINK_FOLLOW).ok()?;
+    Some(tmp)
+}
+
+#[cfg(not(target_os = "linux"))]
+fn name_beside(_: &File, _: &Path) -> Option<PathBuf> {
+    None
 }
 
 /// How much of a body is written before the system is asked to start putting it on
@@ -575,6 +633,10 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let mut d = Draft::new(&dir.path().join("r.txt")).unwrap();
         d.append(b"body").unwrap();
+        // on Linux the draft has no name while it is written: a killed run leaves
+        // nothing in the report folder
+        #[cfg(target_os = "linux")]
+        assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
         drop(d);
         assert_eq!(std::fs::read_dir(dir.path()).unwrap().count(), 0);
     }
