@@ -122,44 +122,24 @@ impl Page<'_> {
         rows: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
         sections: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
     ) -> std::io::Result<()> {
-        self.write_opening(w, rows_len, rows)?;
+        self.opening(rows_len).write(w, rows)?;
         sections(w)?;
         w.write_all(closing().as_bytes())
     }
 
-    /// Write the page up to the parts' sections, `rows` writing the table's rows
-    /// (`rows_len` bytes). It takes a whole number of blocks, [`Page::opening_len`], so
-    /// that a streamed page's sections can stay where they were written (see
-    /// [`super::BLOCK`]): the padding is spaces at the end of the `#run-time` element,
-    /// the one place where the page varies from run to run anyway (the browser
-    /// collapses them).
-    pub(crate) fn write_opening(
-        &self,
-        w: &mut dyn std::io::Write,
-        rows_len: u64,
-        rows: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
-    ) -> std::io::Result<()> {
-        let (pad, middle) = self.pad(rows_len);
-        w.write_all(self.top(pad).as_bytes())?;
-        let mut counted = super::Counted { w: &mut *w, n: 0 };
-        rows(&mut counted)?;
-        if counted.n != rows_len {
-            return Err(std::io::Error::other("the table's rows changed length"));
-        }
-        w.write_all(middle.as_bytes())
-    }
-
-    /// The length of [`Page::write_opening`] with rows of `rows_len` bytes.
-    pub(crate) fn opening_len(&self, rows_len: u64) -> u64 {
-        let (pad, middle) = self.pad(rows_len);
-        self.top(pad).len() as u64 + rows_len + middle.len() as u64
-    }
-
-    /// The padding of the opening with rows of `rows_len` bytes, and its middle part.
-    fn pad(&self, rows_len: u64) -> (u64, String) {
+    /// The page up to the parts' sections with rows of `rows_len` bytes. It takes a
+    /// whole number of blocks, so that a streamed page's sections can stay where they
+    /// were written (see [`super::BLOCK`]): the padding is spaces at the end of the
+    /// `#run-time` element, the one place where the page varies from run to run anyway
+    /// (the browser collapses them).
+    pub(crate) fn opening(&self, rows_len: u64) -> Opening {
         let middle = self.middle();
         let unpadded = self.top(0).len() as u64 + rows_len + middle.len() as u64;
-        (super::block_pad(unpadded), middle)
+        Opening {
+            top: self.top(super::block_pad(unpadded)),
+            middle,
+            rows_len,
+        }
     }
 
     /// The page up to the table's rows, `pad` spaces in the run's time.
@@ -203,6 +183,35 @@ impl Page<'_> {
         changed(&mut o, self.head.baseline.is_some(), self.kept, self.id_of);
         let _ = writeln!(o, "<h2 id=\"details\">Parts in detail</h2>");
         o
+    }
+}
+
+/// The page up to the parts' sections, around the table's rows ([`Page::opening`]).
+pub(crate) struct Opening {
+    top: String,
+    middle: String,
+    rows_len: u64,
+}
+
+impl Opening {
+    /// Its length in bytes, rows included: a whole number of blocks.
+    pub(crate) fn len(&self) -> u64 {
+        self.top.len() as u64 + self.rows_len + self.middle.len() as u64
+    }
+
+    /// Write it, `rows` writing the table's rows (of the length it was made for).
+    pub(crate) fn write(
+        &self,
+        w: &mut dyn std::io::Write,
+        rows: impl FnOnce(&mut dyn std::io::Write) -> std::io::Result<()>,
+    ) -> std::io::Result<()> {
+        w.write_all(self.top.as_bytes())?;
+        let mut counted = super::Counted { w: &mut *w, n: 0 };
+        rows(&mut counted)?;
+        if counted.n != self.rows_len {
+            return Err(std::io::Error::other("the table's rows changed length"));
+        }
+        w.write_all(self.middle.as_bytes())
     }
 }
 

@@ -465,10 +465,11 @@ impl ReportStream {
             };
             let path = dir.join(REPORT_FILES[3]);
             let rows_len = rows.len().map_err(|e| super::with_path(&path, e))?;
+            let opening = page.opening(rows_len);
             sections.place(
                 &path,
-                page.opening_len(rows_len),
-                |w| page.write_opening(w, rows_len, |w| rows.copy_into(w)),
+                opening.len(),
+                |w| opening.write(w, |w| rows.copy_into(w)),
                 html::closing().as_bytes(),
             )
         };
