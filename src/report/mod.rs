@@ -110,7 +110,8 @@ pub(crate) fn temp_beside(path: &Path) -> io::Result<PathBuf> {
     Ok(folder_of(path).join(tmp))
 }
 
-fn folder_of(path: &Path) -> PathBuf {
+/// The folder a file `path` is in ("." for a bare name).
+pub(crate) fn folder_of(path: &Path) -> PathBuf {
     match path.parent() {
         Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
         _ => PathBuf::from("."),
@@ -146,7 +147,7 @@ pub(crate) fn commit(f: fs::File, tmp: &Path, path: &Path, durable: bool) -> io:
 /// The block the bodies of `report.json` and `report.html` are aligned to: the text
 /// before a report's parts is padded with spaces to a multiple of it, so that a
 /// streamed body can stay where it was written while that text is inserted in front
-/// of it (file systems insert whole blocks only; see `stream::Body`). 4 KiB is the
+/// of it (file systems insert whole blocks only; see `stream::Draft`). 4 KiB is the
 /// block of the usual Linux file systems; elsewhere the body is copied instead, and
 /// the bytes are the same either way.
 pub(crate) const BLOCK: u64 = 4096;

@@ -188,12 +188,8 @@ impl Drop for Draft {
 #[cfg(target_os = "linux")]
 fn unnamed_beside(report: &Path) -> Option<File> {
     use rustix::fs::{open, Mode, OFlags};
-    let folder = match report.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p,
-        _ => Path::new("."),
-    };
     let flags = OFlags::TMPFILE | OFlags::RDWR | OFlags::CLOEXEC;
-    open(folder, flags, Mode::from_raw_mode(0o666))
+    open(super::folder_of(report), flags, Mode::from_raw_mode(0o666))
         .ok()
         .map(File::from)
 }
