@@ -217,12 +217,11 @@ impl Stamp {
             parts
                 .iter()
                 .map(|p| {
-                    let (Some(parent), Some(name)) = (p.path.parent(), p.path.file_name()) else {
+                    // a bare file name has no folder to open
+                    let parent = p.path.parent().filter(|d| !d.as_os_str().is_empty());
+                    let (Some(parent), Some(name)) = (parent, p.path.file_name()) else {
                         return Stamp::of(&p.path, fresh);
                     };
-                    if parent.as_os_str().is_empty() {
-                        return Stamp::of(&p.path, fresh);
-                    }
                     if folder.as_ref().is_none_or(|(f, _)| *f != parent) {
                         let flags = OFlags::PATH | OFlags::DIRECTORY | OFlags::CLOEXEC;
                         folder = Some((parent, open(parent, flags, Mode::empty()).ok()));
