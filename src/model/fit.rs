@@ -227,7 +227,9 @@ pub fn series_start(f: &[f64], ys: &[C64]) -> Result<[f64; 4], String> {
             f[0]
         ));
     }
-    let s = |i: usize| (f[i] / F_REF).sqrt();
+    // √(f/1 GHz) once per point: the regressions below read it nine times
+    let sq: Vec<f64> = f.iter().map(|&fi| (fi / F_REF).sqrt()).collect();
+    let s = |i: usize| sq[i];
     let top = (n * 3 / 4).min(n - 1);
     let mut cs = 0.0;
     let (mut ls, mut rdc, mut rac) = (z0.im / (TAU * f[0]), z0.re, 0.0);
@@ -273,7 +275,9 @@ pub fn series_start(f: &[f64], ys: &[C64]) -> Result<[f64; 4], String> {
 pub fn shunt_start(f: &[f64], ysh: &[C64]) -> [f64; 3] {
     let n = f.len();
     let w = |i: usize| TAU * f[i];
-    let z = |i: usize| recip(ysh[i]);
+    // Z_sh once per point: the two regressions read it five times
+    let zs: Vec<C64> = ysh.iter().map(|&y| recip(y)).collect();
+    let z = |i: usize| zs[i];
     let c_lo = (ysh[0].im / w(0)).abs().max(1e-21);
     let c_hi = (ysh[n - 1].im / w(n - 1)).abs().max(1e-22);
     let first = || {
