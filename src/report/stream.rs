@@ -73,6 +73,42 @@ struct Draft {
     insert: bool,
     /// bytes handed to the system to write to disk so far
     started: u64,
+    /// the thread that asks the system to write the body's ranges, once one is due
+    behind: Option<Behind>,
+}
+
+/// Asks the system to start writing ranges of a file, on a thread of its own: the
+/// request does the file system's block allocation in the caller, which would
+/// otherwise hold up the thread that hands the workers their next chunks.
+struct Behind {
+    tx: std::sync::mpsc::Sender<(u64, u64)>,
+    thread: std::thread::JoinHandle<()>,
+}
+
+impl Behind {
+    fn start(f: &File) -> Option<Behind> {
+        // elsewhere there is nothing to ask (see `start_writing`)
+        if !cfg!(target_os = "linux") {
+            return None;
+        }
+        let f = f.try_clone().ok()?;
+        let (tx, rx) = std::sync::mpsc::channel::<(u64, u64)>();
+        let thread = std::thread::Builder::new()
+            .name("write-behind".into())
+            .spawn(move || {
+                for (offset, len) in rx {
+                    start_writing(&f, offset, len);
+                }
+            })
+            .ok()?;
+        Some(Behind { tx, thread })
+    }
+
+    /// Wait until every range asked for has been handed to the system.
+    fn finish(self) {
+        drop(self.tx);
+        let _ = self.thread.join();
+    }
 }
 
 impl Draft {
@@ -97,6 +133,7 @@ impl Draft {
             len: 0,
             insert: true,
             started: 0,
+            behind: None,
         })
     }
 
@@ -105,7 +142,15 @@ impl Draft {
         self.len += bytes.len() as u64;
         if self.len - self.started >= WRITE_BEHIND {
             self.w.flush()?;
-            start_writing(self.w.get_ref(), self.started, self.len - self.started);
+            let (offset, len) = (self.started, self.len - self.started);
+            if self.behind.is_none() {
+                self.behind = Behind::start(self.w.get_ref());
+            }
+            match &self.behind {
+                Some(b) if b.tx.send((offset, len)).is_ok() => {}
+                // no thread to be had: ask here
+                _ => start_writing(self.w.get_ref(), offset, len),
+            }
             self.started = self.len;
         }
         Ok(())
@@ -122,6 +167,9 @@ impl Draft {
         suffix: &[u8],
     ) -> io::Result<()> {
         let tmp = self.tmp.take();
+        if let Some(b) = self.behind.take() {
+            b.finish();
+        }
         let forget = |tmp: &Option<PathBuf>| {
             if let Some(t) = tmp {
                 let _ = std::fs::remove_file(t);
