@@ -13,6 +13,7 @@
 //! Knows nothing of figures or rules.
 
 mod error;
+mod float;
 pub mod lex;
 mod read;
 mod write;
