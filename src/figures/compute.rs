@@ -438,35 +438,27 @@ fn sigma_max_estimate(s: &[C64], n: usize) -> Option<f64> {
     }
 }
 
-/// Blocks whose largest component lies in this range are squared and summed as they
-/// are: no square can overflow or underflow, and no scaling is needed.
-const UNSCALED: std::ops::RangeInclusive<f64> = 1e-100..=1e100;
-
-/// The largest |re|, |im| of a block; NaN when any component is not finite.
-fn largest_component(s: &[C64]) -> f64 {
-    let mut m = 0.0f64;
-    for c in s {
-        if !(c.re.is_finite() && c.im.is_finite()) {
-            return f64::NAN;
-        }
-        m = m.max(c.re.abs()).max(c.im.abs());
-    }
-    m
-}
+/// Squared Frobenius norms ‖S‖²_F of the 2-port blocks whose squares are summed as they
+/// are: no component then exceeds 1e75, so neither a square nor a square of the sums
+/// (below 1e300) can overflow, and the largest component exceeds 1e-76, so the squares
+/// that matter keep their precision. A NaN or infinite component makes ‖S‖²_F NaN or
+/// infinite, outside the range.
+const UNSCALED_F2: std::ops::RangeInclusive<f64> = 1e-150..=1e150;
 
 /// [`sigma_max`]'s 2-port closed form without its scaling by the largest entry (four
 /// `hypot` calls and four divisions per point): the same sums of squares, unscaled,
-/// for blocks of ordinary size ([`UNSCALED`]); None otherwise. Within a few ulps of
-/// [`sigma_max`] (the terms are all sums of non-negative numbers but for the
-/// half-difference, whose error is damped by the square root), so an estimate.
+/// for blocks of ordinary size ([`UNSCALED_F2`], tested on the sums themselves); None
+/// otherwise. Within a few ulps of [`sigma_max`] (the terms are all sums of
+/// non-negative numbers but for the half-difference, whose error is damped by the
+/// square root), so an estimate.
 fn sigma_max_2_unscaled(s: &[C64]) -> Option<f64> {
     let s = s.get(..4)?;
-    if !UNSCALED.contains(&largest_component(s)) {
-        return None;
-    }
     let [a, b, c, d] = [s[0], s[1], s[2], s[3]];
     let g11 = a.norm_sqr() + b.norm_sqr();
     let g22 = c.norm_sqr() + d.norm_sqr();
+    if !UNSCALED_F2.contains(&(g11 + g22)) {
+        return None;
+    }
     let g12 = a * c.conj() + b * d.conj();
     let half = 0.5 * (g11 - g22);
     let lambda = 0.5 * (g11 + g22) + (half * half + g12.norm_sqr()).sqrt();
