@@ -4,7 +4,7 @@ use std::collections::BTreeMap;
 
 use nalgebra::DMatrix;
 
-use super::grid::{fin, first_fall, peak, rising_zero, Stencil};
+use super::grid::{fin, finite_or_nan, first_fall, peak, rising_zero, Stencil};
 use super::{DataChecks, Kind, ViewFigures};
 use crate::network::convert::magnitude;
 use crate::network::{map_points, Network, View, C64};
@@ -144,28 +144,35 @@ fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
 /// is used. This matters where q is small and the numerator cancels, e.g. the first
 /// points of a sweep that starts low with a coarse step.
 fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
-    let b: Curve = y.iter().map(|v| fin(v.im)).collect();
-    let p: Curve = y.iter().zip(w).map(|(v, &w)| fin(w * v.im)).collect();
+    // the curves differentiated, and their derivatives, in the NaN form of
+    // [`Stencil::apply`]; `fin` reads a derivative back as the `Option` it was
+    let p: Vec<f64> = y
+        .iter()
+        .zip(w)
+        .map(|(v, &w)| finite_or_nan(w * v.im))
+        .collect();
+    let zr: Vec<f64> = z.iter().map(|z| z.map_or(f64::NAN, |z| z.re)).collect();
+    let zi: Vec<f64> = z.iter().map(|z| z.map_or(f64::NAN, |z| z.im)).collect();
     // the stencils' weights depend on the grid only: once for the three curves
     let (st, st2) = (Stencil::new(w), Stencil::new_alt(w));
     let (dp, dp2) = (st.apply(&p), st2.apply(&p));
-    let zr: Curve = z.iter().map(|z| z.map(|z| z.re)).collect();
-    let zi: Curve = z.iter().map(|z| z.map(|z| z.im)).collect();
     let (dr, dr2) = (st.apply(&zr), st2.apply(&zr));
     let (di, di2) = (st.apply(&zi), st2.apply(&zi));
     (0..w.len())
         .map(|i| {
-            let y_form = dp[i].zip(b[i]).map(|(d, b)| d - b);
-            let y_err = dp[i].zip(dp2[i]).map(|(a, b)| (a - b).abs());
-            let z_form = match (z[i], dr[i], di[i]) {
+            let (dpi, dr_i, di_i) = (fin(dp[i]), fin(dr[i]), fin(di[i]));
+            let y_form = dpi.zip(fin(y[i].im)).map(|(d, b)| d - b);
+            let y_err = dpi.zip(fin(dp2[i])).map(|(a, b)| (a - b).abs());
+            let z_form = match (z[i], dr_i, di_i) {
                 (Some(zz), Some(r), Some(x)) => {
                     fin(-w[i] * (C64::new(r, x) / (zz * zz)).im).map(|v| (v, zz))
                 }
                 _ => None,
             };
-            let z_err = match (z_form, dr[i], dr2[i], di[i], di2[i]) {
+            // `magnitude`, not hypot: an error estimate, compared with another
+            let z_err = match (z_form, dr_i, fin(dr2[i]), di_i, fin(di2[i])) {
                 (Some((_, zz)), Some(r), Some(r2), Some(x), Some(x2)) => {
-                    fin(w[i] * C64::new(r - r2, x - x2).norm() / zz.norm_sqr())
+                    fin(w[i] * magnitude(C64::new(r - r2, x - x2)) / zz.norm_sqr())
                 }
                 _ => None,
             };
