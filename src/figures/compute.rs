@@ -458,6 +458,7 @@ const UNSCALED_F2: std::ops::RangeInclusive<f64> = 1e-150..=1e150;
 /// otherwise. Within a few ulps of [`sigma_max`] (the terms are all sums of
 /// non-negative numbers but for the half-difference, whose error is damped by the
 /// square root), so an estimate.
+#[inline]
 fn sigma_max_2_unscaled(s: &[C64]) -> Option<f64> {
     let s = s.get(..4)?;
     let [a, b, c, d] = [s[0], s[1], s[2], s[3]];
@@ -613,20 +614,23 @@ fn refined_max(est: &[f64], exact: impl Fn(usize) -> Option<f64>) -> Option<f64>
     best
 }
 
-/// The per-point estimates of [`data_checks`] for N known (the loops unrolled).
-fn plain_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> {
-    plain_estimates_n(net, N)
+/// A block's σ_max estimate and reciprocity estimate.
+#[inline(always)]
+fn estimates(s: &[C64], n: usize) -> (Option<f64>, f64) {
+    (sigma_max_estimate(s, n), reciprocity_estimate(s, n))
 }
 
-/// Every point's σ_max estimate and reciprocity estimate; inlined into
-/// [`plain_estimates`] so that `n` is a constant there.
-#[inline(always)]
+/// The per-point estimates of [`data_checks`] for N known, the loops unrolled. The
+/// closure is written here, generic over N, so that [`map_points`] gets one copy per
+/// N: one written in a function of a run-time `n` is one type for every N, and left
+/// `n` a variable.
+fn plain_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> {
+    map_points(net.points(), |k| estimates(net.s_block(k), N))
+}
+
+/// The per-point estimates for any N.
 fn plain_estimates_n(net: &Network, n: usize) -> Vec<(Option<f64>, f64)> {
-    let one = |k: usize| {
-        let s = net.s_block(k);
-        (sigma_max_estimate(s, n), reciprocity_estimate(s, n))
-    };
-    map_points(net.points(), one)
+    map_points(net.points(), |k| estimates(net.s_block(k), n))
 }
 
 /// Relative margin below the best known σ_max² under which [`skipping_estimates`]
