@@ -145,7 +145,7 @@ fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
 /// points of a sweep that starts low with a coarse step.
 fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
     // the curves differentiated, and their derivatives, in the NaN form of
-    // [`Stencil::apply`]; `fin` reads a derivative back as the `Option` it was
+    // [`Stencil::apply`]
     let p: Vec<f64> = y
         .iter()
         .zip(w)
@@ -158,31 +158,29 @@ fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
     let (dp, dp2) = (st.apply(&p), st2.apply(&p));
     let (dr, dr2) = (st.apply(&zr), st2.apply(&zr));
     let (di, di2) = (st.apply(&zi), st2.apply(&zi));
+    // the choice of form per point, on NaN-coded values throughout (NaN: undefined,
+    // as `None` was; an infinite value stays a value): every undefined input makes
+    // its form or error NaN, and a comparison with NaN is false
     (0..w.len())
         .map(|i| {
-            let (dpi, dr_i, di_i) = (fin(dp[i]), fin(dr[i]), fin(di[i]));
-            let y_form = dpi.zip(fin(y[i].im)).map(|(d, b)| d - b);
-            let y_err = dpi.zip(fin(dp2[i])).map(|(a, b)| (a - b).abs());
-            let z_form = match (z[i], dr_i, di_i) {
-                (Some(zz), Some(r), Some(x)) => {
-                    fin(-w[i] * (C64::new(r, x) / (zz * zz)).im).map(|v| (v, zz))
-                }
-                _ => None,
+            let y_form = dp[i] - finite_or_nan(y[i].im);
+            let y_err = (dp[i] - dp2[i]).abs();
+            let (z_form, z_err) = match z[i] {
+                Some(zz) => (
+                    finite_or_nan(-w[i] * (C64::new(dr[i], di[i]) / (zz * zz)).im),
+                    finite_or_nan(
+                        w[i] * magnitude(C64::new(dr[i] - dr2[i], di[i] - di2[i])) / zz.norm_sqr(),
+                    ),
+                ),
+                None => (f64::NAN, f64::NAN),
             };
-            // `magnitude`, not hypot: an error estimate, compared with another
-            let z_err = match (z_form, dr_i, fin(dr2[i]), di_i, fin(di2[i])) {
-                (Some((_, zz)), Some(r), Some(r2), Some(x), Some(x2)) => {
-                    fin(w[i] * magnitude(C64::new(r - r2, x - x2)) / zz.norm_sqr())
-                }
-                _ => None,
+            // (the impedance form's error counts only where the form is defined)
+            let v = if y_form.is_nan() || (!z_form.is_nan() && z_err < y_err) {
+                z_form
+            } else {
+                y_form
             };
-            match (y_form, z_form.map(|v| v.0)) {
-                (Some(yv), Some(zv)) => match (y_err, z_err) {
-                    (Some(ey), Some(ez)) if ez < ey => Some(zv),
-                    _ => Some(yv),
-                },
-                (a, b) => a.or(b),
-            }
+            (!v.is_nan()).then_some(v)
         })
         .collect()
 }
@@ -1041,6 +1039,90 @@ mod tests {
             assert_eq!(bits(d.reciprocity_error), bits(r), "n={n}");
             assert!(m.is_some());
         }
+    }
+
+    /// [`omega_db_domega`] written out on `Option` curves, as it was before the NaN
+    /// form: the reference for it.
+    fn omega_db_domega_by_options(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
+        use super::super::grid::{derivative, derivative_alt};
+        let b: Curve = y.iter().map(|v| fin(v.im)).collect();
+        let p: Curve = y.iter().zip(w).map(|(v, &w)| fin(w * v.im)).collect();
+        let zr: Curve = z.iter().map(|z| z.map(|z| z.re)).collect();
+        let zi: Curve = z.iter().map(|z| z.map(|z| z.im)).collect();
+        let (dp, dp2) = (derivative(w, &p), derivative_alt(w, &p));
+        let (dr, dr2) = (derivative(w, &zr), derivative_alt(w, &zr));
+        let (di, di2) = (derivative(w, &zi), derivative_alt(w, &zi));
+        (0..w.len())
+            .map(|i| {
+                let y_form = dp[i].zip(b[i]).map(|(d, b)| d - b);
+                let y_err = dp[i].zip(dp2[i]).map(|(a, b)| (a - b).abs());
+                let z_form = match (z[i], dr[i], di[i]) {
+                    (Some(zz), Some(r), Some(x)) => {
+                        fin(-w[i] * (C64::new(r, x) / (zz * zz)).im).map(|v| (v, zz))
+                    }
+                    _ => None,
+                };
+                let z_err = match (z_form, dr[i], dr2[i], di[i], di2[i]) {
+                    (Some((_, zz)), Some(r), Some(r2), Some(x), Some(x2)) => {
+                        fin(w[i] * magnitude(C64::new(r - r2, x - x2)) / zz.norm_sqr())
+                    }
+                    _ => None,
+                };
+                match (y_form, z_form.map(|v| v.0)) {
+                    (Some(yv), Some(zv)) => match (y_err, z_err) {
+                        (Some(ey), Some(ez)) if ez < ey => Some(zv),
+                        _ => Some(yv),
+                    },
+                    (a, b) => a.or(b),
+                }
+            })
+            .collect()
+    }
+
+    #[test]
+    fn slope_on_nan_coded_curves_has_the_bits_of_the_option_form() {
+        let mut rng = Lcg(0x510e);
+        let mut both_forms = 0;
+        for n in [0, 1, 2, 3, 4, 5, 9, 300] {
+            for case in 0..7 {
+                let mut t = 1e8;
+                let w: Vec<f64> = (0..n)
+                    .map(|_| {
+                        t *= 1.0 + 0.05 * rng.next().abs() + 1e-3;
+                        TAU * t
+                    })
+                    .collect();
+                // coil-like admittances with holes: zeros (no Z), NaN, huge and tiny
+                // values (products that overflow or underflow)
+                let y: Vec<C64> = (0..n)
+                    .map(|i| {
+                        let v = C64::new(1e-3 * rng.next().abs(), -0.02 * (1.0 + rng.next()));
+                        match (case, i % 7) {
+                            (1, 3) => C64::new(0.0, 0.0),
+                            (2, 5) => C64::new(f64::NAN, 0.01),
+                            (3, 2) => v * 1e300,
+                            (4, 4) => v * 1e-300,
+                            // |Z|⁴ underflows: the impedance form overflows where its
+                            // error estimate does not
+                            (5, _) => v * 1e100,
+                            _ => v,
+                        }
+                    })
+                    .collect();
+                let z: Vec<Option<C64>> = y.iter().map(|&v| z_of(v)).collect();
+                let bits = |c: Curve| -> Vec<Option<u64>> {
+                    c.into_iter().map(|v| v.map(f64::to_bits)).collect()
+                };
+                let fast = omega_db_domega(&w, &y, &z);
+                both_forms += fast.iter().filter(|v| v.is_some()).count();
+                assert_eq!(
+                    bits(fast),
+                    bits(omega_db_domega_by_options(&w, &y, &z)),
+                    "n={n} case {case}"
+                );
+            }
+        }
+        assert!(both_forms > 1000, "{both_forms} defined slopes");
     }
 
     #[test]
