@@ -66,6 +66,7 @@ pub fn view_figures(view: &View, freq: &[f64], kind: Option<Kind>) -> ViewFigure
     figs
 }
 
+#[inline]
 fn z_of(y: C64) -> Option<C64> {
     let z = C64::new(1.0, 0.0) / y;
     (z.re.is_finite() && z.im.is_finite()).then_some(z)
