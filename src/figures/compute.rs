@@ -162,7 +162,18 @@ fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
     // the choice of form per point, on NaN-coded values throughout (NaN: undefined,
     // as `None` was; an infinite value stays a value): every undefined input makes
     // its form or error NaN, and a comparison with NaN is false
-    (0..w.len())
+    // every slice cut to the sweep's length: the indexing below then needs no checks
+    let n = w.len();
+    let (y, z) = (&y[..n], &z[..n]);
+    let (dp, dp2, dr, dr2, di, di2) = (
+        &dp[..n],
+        &dp2[..n],
+        &dr[..n],
+        &dr2[..n],
+        &di[..n],
+        &di2[..n],
+    );
+    (0..n)
         .map(|i| {
             let y_form = dp[i] - finite_or_nan(y[i].im);
             let y_err = (dp[i] - dp2[i]).abs();
