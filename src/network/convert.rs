@@ -397,9 +397,10 @@ fn to_s_general(p: &[C64], n: usize, sign: f64) -> Option<Vec<C64>> {
 /// the Y column likewise with Δ' = (1+S11)(1+S22) − S12S21).
 ///
 /// Not tested for finiteness: every caller scales the result by the reference factors
-/// (finite, positive) and tests that, which a non-finite entry fails too. Inline: with
-/// `sb` a constant the products by ±1 fold away.
-#[inline]
+/// (finite, positive) and tests that, which a non-finite entry fails too. Always
+/// inlined: with `sb` a constant the products by ±1 fold away (a fat-LTO build left it
+/// a call, with `sb` a variable).
+#[inline(always)]
 fn from_s_2(s: &[C64], sb: f64) -> Option<[C64; 4]> {
     let (s11, s12, s21, s22) = (s[0], s[1], s[2], s[3]);
     let a = [one() - s11 * sb, -s12 * sb, -s21 * sb, one() - s22 * sb];
