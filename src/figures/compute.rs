@@ -4,7 +4,7 @@ use std::collections::BTreeMap;
 
 use nalgebra::DMatrix;
 
-use super::grid::{fin, first_fall, peak, rising_zero, Stencil};
+use super::grid::{fin, finite_or_nan, first_fall, peak, rising_zero, Stencil};
 use super::{DataChecks, Kind, ViewFigures};
 use crate::network::convert::magnitude;
 use crate::network::{map_points, Network, View, C64};
@@ -66,6 +66,7 @@ pub fn view_figures(view: &View, freq: &[f64], kind: Option<Kind>) -> ViewFigure
     figs
 }
 
+#[inline]
 fn z_of(y: C64) -> Option<C64> {
     let z = C64::new(1.0, 0.0) / y;
     (z.re.is_finite() && z.im.is_finite()).then_some(z)
@@ -144,38 +145,54 @@ fn inductor(figs: &mut ViewFigures, f: &[f64], y: &[C64]) {
 /// is used. This matters where q is small and the numerator cancels, e.g. the first
 /// points of a sweep that starts low with a coarse step.
 fn omega_db_domega(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
-    let b: Curve = y.iter().map(|v| fin(v.im)).collect();
-    let p: Curve = y.iter().zip(w).map(|(v, &w)| fin(w * v.im)).collect();
+    // the curves differentiated, and their derivatives, in the NaN form of
+    // [`Stencil::apply`]
+    let p: Vec<f64> = y
+        .iter()
+        .zip(w)
+        .map(|(v, &w)| finite_or_nan(w * v.im))
+        .collect();
+    let zr: Vec<f64> = z.iter().map(|z| z.map_or(f64::NAN, |z| z.re)).collect();
+    let zi: Vec<f64> = z.iter().map(|z| z.map_or(f64::NAN, |z| z.im)).collect();
     // the stencils' weights depend on the grid only: once for the three curves
     let (st, st2) = (Stencil::new(w), Stencil::new_alt(w));
     let (dp, dp2) = (st.apply(&p), st2.apply(&p));
-    let zr: Curve = z.iter().map(|z| z.map(|z| z.re)).collect();
-    let zi: Curve = z.iter().map(|z| z.map(|z| z.im)).collect();
     let (dr, dr2) = (st.apply(&zr), st2.apply(&zr));
     let (di, di2) = (st.apply(&zi), st2.apply(&zi));
-    (0..w.len())
+    // the choice of form per point, on NaN-coded values throughout (NaN: undefined,
+    // as `None` was; an infinite value stays a value): every undefined input makes
+    // its form or error NaN, and a comparison with NaN is false
+    // every slice cut to the sweep's length: the indexing below then needs no checks
+    let n = w.len();
+    let (y, z) = (&y[..n], &z[..n]);
+    let (dp, dp2, dr, dr2, di, di2) = (
+        &dp[..n],
+        &dp2[..n],
+        &dr[..n],
+        &dr2[..n],
+        &di[..n],
+        &di2[..n],
+    );
+    (0..n)
         .map(|i| {
-            let y_form = dp[i].zip(b[i]).map(|(d, b)| d - b);
-            let y_err = dp[i].zip(dp2[i]).map(|(a, b)| (a - b).abs());
-            let z_form = match (z[i], dr[i], di[i]) {
-                (Some(zz), Some(r), Some(x)) => {
-                    fin(-w[i] * (C64::new(r, x) / (zz * zz)).im).map(|v| (v, zz))
-                }
-                _ => None,
+            let y_form = dp[i] - finite_or_nan(y[i].im);
+            let y_err = (dp[i] - dp2[i]).abs();
+            let (z_form, z_err) = match z[i] {
+                Some(zz) => (
+                    finite_or_nan(-w[i] * (C64::new(dr[i], di[i]) / (zz * zz)).im),
+                    finite_or_nan(
+                        w[i] * magnitude(C64::new(dr[i] - dr2[i], di[i] - di2[i])) / zz.norm_sqr(),
+                    ),
+                ),
+                None => (f64::NAN, f64::NAN),
             };
-            let z_err = match (z_form, dr[i], dr2[i], di[i], di2[i]) {
-                (Some((_, zz)), Some(r), Some(r2), Some(x), Some(x2)) => {
-                    fin(w[i] * C64::new(r - r2, x - x2).norm() / zz.norm_sqr())
-                }
-                _ => None,
+            // (the impedance form's error counts only where the form is defined)
+            let v = if y_form.is_nan() || (!z_form.is_nan() && z_err < y_err) {
+                z_form
+            } else {
+                y_form
             };
-            match (y_form, z_form.map(|v| v.0)) {
-                (Some(yv), Some(zv)) => match (y_err, z_err) {
-                    (Some(ey), Some(ez)) if ez < ey => Some(zv),
-                    _ => Some(yv),
-                },
-                (a, b) => a.or(b),
-            }
+            (!v.is_nan()).then_some(v)
         })
         .collect()
 }
@@ -438,35 +455,28 @@ fn sigma_max_estimate(s: &[C64], n: usize) -> Option<f64> {
     }
 }
 
-/// Blocks whose largest component lies in this range are squared and summed as they
-/// are: no square can overflow or underflow, and no scaling is needed.
-const UNSCALED: std::ops::RangeInclusive<f64> = 1e-100..=1e100;
-
-/// The largest |re|, |im| of a block; NaN when any component is not finite.
-fn largest_component(s: &[C64]) -> f64 {
-    let mut m = 0.0f64;
-    for c in s {
-        if !(c.re.is_finite() && c.im.is_finite()) {
-            return f64::NAN;
-        }
-        m = m.max(c.re.abs()).max(c.im.abs());
-    }
-    m
-}
+/// Squared Frobenius norms ‖S‖²_F of the 2-port blocks whose squares are summed as they
+/// are: no component then exceeds 1e75, so neither a square nor a square of the sums
+/// (below 1e300) can overflow, and the largest component exceeds 1e-76, so the squares
+/// that matter keep their precision. A NaN or infinite component makes ‖S‖²_F NaN or
+/// infinite, outside the range.
+const UNSCALED_F2: std::ops::RangeInclusive<f64> = 1e-150..=1e150;
 
 /// [`sigma_max`]'s 2-port closed form without its scaling by the largest entry (four
 /// `hypot` calls and four divisions per point): the same sums of squares, unscaled,
-/// for blocks of ordinary size ([`UNSCALED`]); None otherwise. Within a few ulps of
-/// [`sigma_max`] (the terms are all sums of non-negative numbers but for the
-/// half-difference, whose error is damped by the square root), so an estimate.
+/// for blocks of ordinary size ([`UNSCALED_F2`], tested on the sums themselves); None
+/// otherwise. Within a few ulps of [`sigma_max`] (the terms are all sums of
+/// non-negative numbers but for the half-difference, whose error is damped by the
+/// square root), so an estimate.
+#[inline]
 fn sigma_max_2_unscaled(s: &[C64]) -> Option<f64> {
     let s = s.get(..4)?;
-    if !UNSCALED.contains(&largest_component(s)) {
-        return None;
-    }
     let [a, b, c, d] = [s[0], s[1], s[2], s[3]];
     let g11 = a.norm_sqr() + b.norm_sqr();
     let g22 = c.norm_sqr() + d.norm_sqr();
+    if !UNSCALED_F2.contains(&(g11 + g22)) {
+        return None;
+    }
     let g12 = a * c.conj() + b * d.conj();
     let half = 0.5 * (g11 - g22);
     let lambda = 0.5 * (g11 + g22) + (half * half + g12.norm_sqr()).sqrt();
@@ -614,20 +624,23 @@ fn refined_max(est: &[f64], exact: impl Fn(usize) -> Option<f64>) -> Option<f64>
     best
 }
 
-/// The per-point estimates of [`data_checks`] for N known (the loops unrolled).
-fn plain_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> {
-    plain_estimates_n(net, N)
+/// A block's σ_max estimate and reciprocity estimate.
+#[inline(always)]
+fn estimates(s: &[C64], n: usize) -> (Option<f64>, f64) {
+    (sigma_max_estimate(s, n), reciprocity_estimate(s, n))
 }
 
-/// Every point's σ_max estimate and reciprocity estimate; inlined into
-/// [`plain_estimates`] so that `n` is a constant there.
-#[inline(always)]
+/// The per-point estimates of [`data_checks`] for N known, the loops unrolled. The
+/// closure is written here, generic over N, so that [`map_points`] gets one copy per
+/// N: one written in a function of a run-time `n` is one type for every N, and left
+/// `n` a variable.
+fn plain_estimates<const N: usize>(net: &Network) -> Vec<(Option<f64>, f64)> {
+    map_points(net.points(), |k| estimates(net.s_block(k), N))
+}
+
+/// The per-point estimates for any N.
 fn plain_estimates_n(net: &Network, n: usize) -> Vec<(Option<f64>, f64)> {
-    let one = |k: usize| {
-        let s = net.s_block(k);
-        (sigma_max_estimate(s, n), reciprocity_estimate(s, n))
-    };
-    map_points(net.points(), one)
+    map_points(net.points(), |k| estimates(net.s_block(k), n))
 }
 
 /// Relative margin below the best known σ_max² under which [`skipping_estimates`]
@@ -1038,6 +1051,90 @@ mod tests {
             assert_eq!(bits(d.reciprocity_error), bits(r), "n={n}");
             assert!(m.is_some());
         }
+    }
+
+    /// [`omega_db_domega`] written out on `Option` curves, as it was before the NaN
+    /// form: the reference for it.
+    fn omega_db_domega_by_options(w: &[f64], y: &[C64], z: &[Option<C64>]) -> Curve {
+        use super::super::grid::{derivative, derivative_alt};
+        let b: Curve = y.iter().map(|v| fin(v.im)).collect();
+        let p: Curve = y.iter().zip(w).map(|(v, &w)| fin(w * v.im)).collect();
+        let zr: Curve = z.iter().map(|z| z.map(|z| z.re)).collect();
+        let zi: Curve = z.iter().map(|z| z.map(|z| z.im)).collect();
+        let (dp, dp2) = (derivative(w, &p), derivative_alt(w, &p));
+        let (dr, dr2) = (derivative(w, &zr), derivative_alt(w, &zr));
+        let (di, di2) = (derivative(w, &zi), derivative_alt(w, &zi));
+        (0..w.len())
+            .map(|i| {
+                let y_form = dp[i].zip(b[i]).map(|(d, b)| d - b);
+                let y_err = dp[i].zip(dp2[i]).map(|(a, b)| (a - b).abs());
+                let z_form = match (z[i], dr[i], di[i]) {
+                    (Some(zz), Some(r), Some(x)) => {
+                        fin(-w[i] * (C64::new(r, x) / (zz * zz)).im).map(|v| (v, zz))
+                    }
+                    _ => None,
+                };
+                let z_err = match (z_form, dr[i], dr2[i], di[i], di2[i]) {
+                    (Some((_, zz)), Some(r), Some(r2), Some(x), Some(x2)) => {
+                        fin(w[i] * magnitude(C64::new(r - r2, x - x2)) / zz.norm_sqr())
+                    }
+                    _ => None,
+                };
+                match (y_form, z_form.map(|v| v.0)) {
+                    (Some(yv), Some(zv)) => match (y_err, z_err) {
+                        (Some(ey), Some(ez)) if ez < ey => Some(zv),
+                        _ => Some(yv),
+                    },
+                    (a, b) => a.or(b),
+                }
+            })
+            .collect()
+    }
+
+    #[test]
+    fn slope_on_nan_coded_curves_has_the_bits_of_the_option_form() {
+        let mut rng = Lcg(0x510e);
+        let mut both_forms = 0;
+        for n in [0, 1, 2, 3, 4, 5, 9, 300] {
+            for case in 0..7 {
+                let mut t = 1e8;
+                let w: Vec<f64> = (0..n)
+                    .map(|_| {
+                        t *= 1.0 + 0.05 * rng.next().abs() + 1e-3;
+                        TAU * t
+                    })
+                    .collect();
+                // coil-like admittances with holes: zeros (no Z), NaN, huge and tiny
+                // values (products that overflow or underflow)
+                let y: Vec<C64> = (0..n)
+                    .map(|i| {
+                        let v = C64::new(1e-3 * rng.next().abs(), -0.02 * (1.0 + rng.next()));
+                        match (case, i % 7) {
+                            (1, 3) => C64::new(0.0, 0.0),
+                            (2, 5) => C64::new(f64::NAN, 0.01),
+                            (3, 2) => v * 1e300,
+                            (4, 4) => v * 1e-300,
+                            // |Z|⁴ underflows: the impedance form overflows where its
+                            // error estimate does not
+                            (5, _) => v * 1e100,
+                            _ => v,
+                        }
+                    })
+                    .collect();
+                let z: Vec<Option<C64>> = y.iter().map(|&v| z_of(v)).collect();
+                let bits = |c: Curve| -> Vec<Option<u64>> {
+                    c.into_iter().map(|v| v.map(f64::to_bits)).collect()
+                };
+                let fast = omega_db_domega(&w, &y, &z);
+                both_forms += fast.iter().filter(|v| v.is_some()).count();
+                assert_eq!(
+                    bits(fast),
+                    bits(omega_db_domega_by_options(&w, &y, &z)),
+                    "n={n} case {case}"
+                );
+            }
+        }
+        assert!(both_forms > 1000, "{both_forms} defined slopes");
     }
 
     #[test]

@@ -60,7 +60,7 @@ pub fn interp(f: &[f64], y: &[Option<f64>], x: f64) -> Option<f64> {
 /// at interior points, one-sided at the ends). Two points: the secant. None where
 /// a needed sample is missing or the grid has fewer than two points.
 pub fn derivative(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
-    Stencil::new(x).apply(y)
+    from_nan(&Stencil::new(x).apply(&to_nan(y)))
 }
 
 /// The same derivative from the neighbouring stencil (the parabola through the
@@ -68,13 +68,33 @@ pub fn derivative(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
 /// from [`derivative`] estimates the truncation error (both are O(h²·y‴)). None
 /// for grids of fewer than four points.
 pub fn derivative_alt(x: &[f64], y: &[Option<f64>]) -> Vec<Option<f64>> {
-    Stencil::new_alt(x).apply(y)
+    from_nan(&Stencil::new_alt(x).apply(&to_nan(y)))
+}
+
+/// A curve with its undefined samples as NaN, the form [`Stencil::apply`] takes.
+pub fn to_nan(y: &[Option<f64>]) -> Vec<f64> {
+    y.iter().map(|v| v.unwrap_or(f64::NAN)).collect()
+}
+
+/// A curve from the NaN form, every sample that is not finite undefined.
+pub fn from_nan(y: &[f64]) -> Vec<Option<f64>> {
+    y.iter().map(|&v| fin(v)).collect()
+}
+
+/// x when finite, else NaN: [`fin`] in the NaN form.
+#[inline]
+pub fn finite_or_nan(x: f64) -> f64 {
+    if x.is_finite() {
+        x
+    } else {
+        f64::NAN
+    }
 }
 
 /// The weights of [`derivative`] (or [`derivative_alt`]) on one grid, for
 /// differentiating several curves on it: they depend on the grid alone, and are
-/// most of the work (three divisions a point). [`Stencil::apply`] gives the bits of
-/// the one-off functions, which are built on it.
+/// most of the work (three divisions a point). The one-off functions are built on
+/// [`Stencil::apply`], so they have its bits.
 #[derive(Debug, Clone)]
 pub struct Stencil {
     kind: StencilKind,
@@ -138,24 +158,23 @@ impl Stencil {
         Stencil { kind }
     }
 
-    /// dy/dx at every grid point of `y` (on the stencil's grid).
-    pub fn apply(&self, y: &[Option<f64>]) -> Vec<Option<f64>> {
+    /// dy/dx at every grid point of `y` (on the stencil's grid), undefined samples and
+    /// results as NaN ([`to_nan`]): a NaN sample makes the weighted sum NaN, as an
+    /// undefined one made the result undefined, and the sums of defined samples are
+    /// the same operations, so the same bits, as on `Option`s, at a fraction of the
+    /// cost (no tags to test, half the memory).
+    pub fn apply(&self, y: &[f64]) -> Vec<f64> {
         match &self.kind {
-            StencilKind::None(n) => vec![None; *n],
+            StencilKind::None(n) => vec![f64::NAN; *n],
             StencilKind::Secant(dx) => {
-                let d = match (y[0], y[1]) {
-                    (Some(a), Some(b)) => fin((b - a) / dx),
-                    _ => None,
-                };
+                let d = finite_or_nan((y[1] - y[0]) / dx);
                 vec![d, d]
             }
             StencilKind::Three(w) => w
                 .iter()
                 .map(|&(j, [da, db, dc])| {
-                    let (Some(ya), Some(yb), Some(yc)) = (y[j - 1], y[j], y[j + 1]) else {
-                        return None;
-                    };
-                    fin(ya * da + yb * db + yc * dc)
+                    let s = &y[j - 1..j + 2];
+                    finite_or_nan(s[0] * da + s[1] * db + s[2] * dc)
                 })
                 .collect(),
         }
@@ -315,13 +334,14 @@ mod tests {
                 let bits = |v: Vec<Option<f64>>| -> Vec<Option<u64>> {
                     v.into_iter().map(|d| d.map(f64::to_bits)).collect()
                 };
+                let apply = |st: &Stencil| from_nan(&st.apply(&to_nan(&y)));
                 assert_eq!(
-                    bits(plain.apply(&y)),
+                    bits(apply(&plain)),
                     bits(derivative_by_hand(&x, &y, false)),
                     "n={n}"
                 );
                 assert_eq!(
-                    bits(alt.apply(&y)),
+                    bits(apply(&alt)),
                     bits(derivative_by_hand(&x, &y, true)),
                     "n={n} alt"
                 );

@@ -36,19 +36,26 @@ fn one() -> C64 {
 /// |c| as √(re² + im²) where the squares can neither overflow nor lose precision to
 /// underflow, else `norm` (hypot). Within an ulp or so of `norm` and several times
 /// cheaper (glibc's hypot is a call that rescales); for thresholds and estimates,
-/// where the last bit decides nothing. 0 exactly when c is 0.
+/// where the last bit decides nothing. 0 exactly when c is 0 (without the call: exact
+/// zeros are common, e.g. S12 − S21 of reciprocal data).
 #[inline]
 pub fn magnitude(c: C64) -> f64 {
     let m = c.re.abs().max(c.im.abs());
     if m > 1e-150 && m < 1e150 {
         (c.re * c.re + c.im * c.im).sqrt()
+    } else if c.re == 0.0 && c.im == 0.0 {
+        // (not `m == 0`: `max` drops a NaN, which must come out as NaN)
+        0.0
     } else {
         c.norm()
     }
 }
 
+#[inline]
 fn all_finite(v: &[C64]) -> bool {
-    v.iter().all(|c| c.re.is_finite() && c.im.is_finite())
+    // `&`, not `&&`: no branch per value (a block is a few values, rarely not finite)
+    v.iter()
+        .fold(true, |ok, c| ok & c.re.is_finite() & c.im.is_finite())
 }
 
 /// `x.norm() > y.norm()`, decided on the squared magnitudes (no hypot) unless they
@@ -250,6 +257,66 @@ fn solve_body(a: &mut [C64], x: &mut [C64], n: usize, m: usize) -> bool {
     all_finite(x)
 }
 
+/// Squared magnitudes of the largest entry of a 2×2 matrix within which
+/// [`det_2`] takes its short path: every |a_ij| is then below 1e70, so neither the
+/// determinant's square nor a product of an entry with it can overflow, and the
+/// determinant of a regular matrix is at least SINGULAR_TOL·1e-140, whose square
+/// cannot underflow.
+const ORDINARY_2: std::ops::RangeInclusive<f64> = 1e-140..=1e140;
+
+/// Dividing by the determinant of a regular 2×2 matrix, as [`det_2`] found it.
+#[derive(Debug, Clone, Copy)]
+enum ByDet {
+    /// 1/det, for a matrix of ordinary size: one real division for all entries
+    Recip(C64),
+    /// det itself, for extreme sizes, where dividing is kept as it always was
+    Divide(C64),
+}
+
+impl ByDet {
+    /// x / det (by the reciprocal within an ulp or two of the quotient).
+    #[inline]
+    fn of(self, x: C64) -> C64 {
+        match self {
+            ByDet::Recip(r) => x * r,
+            ByDet::Divide(d) => x / d,
+        }
+    }
+}
+
+/// The determinant of the 2×2 row-major `a`, to divide by; None when `a` is singular:
+/// its scale max|a_ij| is not finite and positive, or |det| ≤ SINGULAR_TOL·scale².
+///
+/// For a matrix of ordinary size ([`ORDINARY_2`]) the scale is √ of the largest
+/// squared magnitude, one root instead of four: √ is monotonic and each of those
+/// entries' `magnitude` is √ of its squared magnitude, so it is the same number, bit
+/// for bit, and so is the decision. (An entry too small for that form of `magnitude`
+/// is below 1.5e-150, far below the largest.) Always inlined: its answer then stays in
+/// registers and the caller's branch on it is taken once.
+#[inline(always)]
+fn det_2(a: &[C64; 4]) -> Option<ByDet> {
+    let det = a[0] * a[3] - a[1] * a[2];
+    let mut m2 = 0.0f64;
+    for c in a {
+        let v = c.norm_sqr();
+        if v > m2 {
+            m2 = v;
+        }
+    }
+    if ORDINARY_2.contains(&m2) {
+        let scale = m2.sqrt();
+        if magnitude(det) <= SINGULAR_TOL * scale * scale {
+            return None;
+        }
+        return Some(ByDet::Recip(det.conj() * (1.0 / det.norm_sqr())));
+    }
+    let scale = a.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
+    if !(scale.is_finite()) || scale == 0.0 || magnitude(det) <= SINGULAR_TOL * scale * scale {
+        return None;
+    }
+    Some(ByDet::Divide(det))
+}
+
 /// Solve A X = B for 2×2 row-major by Cramer's rule.
 fn solve2(a: &[C64], b: &[C64]) -> Option<Vec<C64>> {
     let det = a[0] * a[3] - a[1] * a[2];
@@ -329,22 +396,23 @@ fn to_s_general(p: &[C64], n: usize, sign: f64) -> Option<Vec<C64>> {
 /// Closed 2-port form of Xn = (I + sa·S)⁻¹ (I + sb·S) with sa = −sb (Pozar Table 4.2:
 /// Z11 = [(1+S11)(1−S22) + S12S21]/Δ, Z12 = 2S12/Δ, Δ = (1−S11)(1−S22) − S12S21, and
 /// the Y column likewise with Δ' = (1+S11)(1+S22) − S12S21).
+///
+/// Not tested for finiteness: every caller scales the result by the reference factors
+/// (finite, positive) and tests that, which a non-finite entry fails too. Always
+/// inlined: with `sb` a constant the products by ±1 fold away (a fat-LTO build left it
+/// a call, with `sb` a variable).
+#[inline(always)]
 fn from_s_2(s: &[C64], sb: f64) -> Option<[C64; 4]> {
     let (s11, s12, s21, s22) = (s[0], s[1], s[2], s[3]);
     let a = [one() - s11 * sb, -s12 * sb, -s21 * sb, one() - s22 * sb];
-    let det = a[0] * a[3] - a[1] * a[2];
-    let scale = a.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
-    if scale == 0.0 || magnitude(det) <= SINGULAR_TOL * scale * scale {
-        return None;
-    }
+    let det = det_2(&a)?;
     let p = s12 * s21;
-    let out = [
-        ((one() + s11 * sb) * (one() - s22 * sb) + p) / det,
-        s12 * (2.0 * sb) / det,
-        s21 * (2.0 * sb) / det,
-        ((one() - s11 * sb) * (one() + s22 * sb) + p) / det,
-    ];
-    all_finite(&out).then_some(out)
+    Some([
+        det.of((one() + s11 * sb) * (one() - s22 * sb) + p),
+        det.of(s12 * (2.0 * sb)),
+        det.of(s21 * (2.0 * sb)),
+        det.of((one() - s11 * sb) * (one() + s22 * sb) + p),
+    ])
 }
 
 /// Closed 2-port form of S from P = Zn (sign +1) or P = Yn (sign −1):
@@ -502,6 +570,7 @@ impl Refs {
 /// [`s_to_y`] of a 2-port on the stack, with the factors of [`Refs::y2`]: the same
 /// operations, so the same bits, without the allocation and the per-block reference
 /// checks (the 2-port path of every `check`).
+#[inline]
 pub fn s_to_y_2(s: &[C64; 4], scale: &[f64; 4]) -> Option<[C64; 4]> {
     // [`from_s_into`]'s 2-port arm written out on arrays: the closed form, the factors,
     // the finiteness test, in its order
@@ -826,6 +895,82 @@ mod tests {
             }
             assert!(none >= 2, "n={n}: {none}");
         }
+    }
+
+    /// [`det_2`]'s decision the straightforward way: the scale from every entry's
+    /// `magnitude`, as before the short path.
+    fn singular_by_magnitudes(a: &[C64; 4]) -> bool {
+        let det = a[0] * a[3] - a[1] * a[2];
+        let scale = a.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
+        !(scale.is_finite()) || scale == 0.0 || magnitude(det) <= SINGULAR_TOL * scale * scale
+    }
+
+    #[test]
+    fn det_2_decides_as_the_magnitudes_do() {
+        // random matrices at sizes from 1e-200 to 1e200 (both paths), exact zeros,
+        // tiny entries beside ordinary ones, and determinants on either side of the
+        // threshold: the same decision every time, and a quotient within a few ulps
+        let mut next = uniform(0xde72u64);
+        let mut cases: Vec<[C64; 4]> = Vec::new();
+        for e in (-200..=200).step_by(10) {
+            let k = 10f64.powi(e);
+            for _ in 0..40 {
+                cases.push([(); 4].map(|_| c(next(), next()) * k));
+            }
+            let (u, v) = (c(next(), next()) * k, c(next(), next()));
+            // rank one, then nudged across SINGULAR_TOL relative to the scale²
+            for t in [0.0, 0.5e-13, 2e-13, 1e-10] {
+                let mut a = [u, u * v, c(1.0, 0.5) * k, c(1.0, 0.5) * v * k];
+                a[3] += c(t, 0.0) * k;
+                cases.push(a);
+            }
+        }
+        cases.push([c(0.0, 0.0); 4]);
+        cases.push([c(1.0, 0.0), c(0.0, 0.0), c(0.0, 0.0), c(1e-160, 0.0)]);
+        cases.push([c(1e-160, 1e-160), c(0.0, 0.0), c(0.0, 0.0), c(1e-160, 0.0)]);
+        cases.push([c(1e100, 0.0), c(1e-200, 0.0), c(0.0, 0.0), c(1e100, 0.0)]);
+        let (mut regular, mut singular) = (0, 0);
+        for (i, a) in cases.iter().enumerate() {
+            let got = det_2(a);
+            assert_eq!(got.is_none(), singular_by_magnitudes(a), "case {i}: {a:?}");
+            let Some(by) = got else {
+                singular += 1;
+                continue;
+            };
+            regular += 1;
+            let det = a[0] * a[3] - a[1] * a[2];
+            for x in [a[0], a[1], c(1.0, -2.0)] {
+                let (q, want) = (by.of(x), x / det);
+                if want.is_finite() && want.norm() > 1e-290 {
+                    assert!(
+                        (q - want).norm() <= 1e-15 * want.norm(),
+                        "case {i}: {q} vs {want}"
+                    );
+                }
+            }
+        }
+        assert!(
+            regular > 1000 && singular > 60,
+            "{regular} regular, {singular} singular"
+        );
+    }
+
+    #[test]
+    fn magnitude_is_norm_to_an_ulp() {
+        let mut next = uniform(0x3a9u64);
+        for e in (-320..=300).step_by(5) {
+            let k = 10f64.powi(e);
+            for _ in 0..20 {
+                let v = c(next(), next()) * k;
+                let (m, n) = (magnitude(v), v.norm());
+                assert!((m - n).abs() <= 3e-16 * n, "{v}: {m:e} vs {n:e}");
+            }
+        }
+        assert_eq!(magnitude(c(0.0, -0.0)).to_bits(), 0f64.to_bits());
+        assert!(magnitude(c(0.0, f64::NAN)).is_nan());
+        assert!(magnitude(c(f64::NAN, 0.5)).is_nan());
+        assert_eq!(magnitude(c(f64::INFINITY, 1.0)), f64::INFINITY);
+        assert_eq!(magnitude(c(1e300, 1e300)), c(1e300, 1e300).norm());
     }
 
     #[test]

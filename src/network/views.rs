@@ -19,7 +19,7 @@
 
 use rayon::prelude::*;
 
-use super::convert::{self, BlockConverter};
+use super::convert::{self, magnitude, BlockConverter};
 use super::{Network, PortMap, View, ViewName, C64};
 
 /// Why a view cannot be made from a network.
@@ -109,27 +109,28 @@ fn y_sub2(
     conv: &mut Option<BlockConverter>,
 ) -> Option<[C64; 4]> {
     let n = net.ports;
-    let pick = |y: &[C64]| {
-        let (a, b) = (idx[0], idx[1]);
-        [y[a * n + a], y[a * n + b], y[b * n + a], y[b * n + b]]
-    };
+    let (a, b) = (*idx.first()?, *idx.get(1)?);
     if n == 2 {
         let s: &[C64; 4] = net.s_block(k).try_into().ok()?;
         let y = convert::s_to_y_2(s, y2?)?;
-        Some(pick(&y))
+        // the pair is (1, 2) or (2, 1)
+        Some(if a == 0 { y } else { [y[3], y[2], y[1], y[0]] })
     } else {
-        conv.as_mut()?.y(net.s_block(k)).map(pick)
+        let y = conv.as_mut()?.y(net.s_block(k))?;
+        Some([y[a * n + a], y[a * n + b], y[b * n + a], y[b * n + b]])
     }
 }
 
 /// Differential input admittance of a 2×2 Y (floating drive), see the module doc.
 pub fn differential_y(y: &[C64; 4]) -> Option<C64> {
     let sum = y[0] + y[1] + y[2] + y[3];
-    let scale = y.iter().map(|c| c.norm()).fold(0.0, f64::max);
+    // `magnitude`, not hypot: a 1e-12 threshold has no use for the last bit, and its
+    // careful fallback keeps huge entries finite, so the test on the scale stands
+    let scale = y.iter().map(|&c| magnitude(c)).fold(0.0, f64::max);
     if !scale.is_finite() {
         return None;
     }
-    let yd = if sum.norm() <= 1e-12 * scale {
+    let yd = if magnitude(sum) <= 1e-12 * scale {
         (y[0] - y[1] - y[2] + y[3]) / 4.0
     } else {
         (y[0] * y[3] - y[1] * y[2]) / sum
@@ -149,9 +150,13 @@ fn per_point<T: Send>(
     let init = || BlockConverter::new(&net.z0);
     if !super::splits(net.points()) {
         let mut conv = init();
-        return (0..net.points())
-            .map(|k| f(&mut conv, k).ok_or(k))
-            .collect();
+        // sized up front: collecting through `Result` knows no length, and grew the
+        // vector by doubling
+        let mut out = Vec::with_capacity(net.points());
+        for k in 0..net.points() {
+            out.push(f(&mut conv, k).ok_or(k)?);
+        }
+        return Ok(out);
     }
     let all: Option<Vec<T>> = (0..net.points())
         .into_par_iter()
@@ -226,7 +231,9 @@ pub fn view(net: &Network, name: ViewName, ports: &PortMap) -> Result<View, View
                 Some((yin, y))
             })
             .map_err(singular)?;
-            let (y_in, two) = both.into_iter().unzip();
+            // two copies from a slice: cheaper than `unzip`'s element-wise pushes
+            let y_in = both.iter().map(|p| p.0).collect();
+            let two = both.iter().map(|p| p.1).collect();
             Ok(View::Driving {
                 name,
                 y_in,
