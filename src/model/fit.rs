@@ -127,7 +127,7 @@ impl Form for SeriesForm {
         let s = (f / F_REF).sqrt();
         let yc = recip(C64::new(x[1] + x[2] * s, w * x[0]));
         let y2 = -yc * yc; // ∂(1/Z)/∂Z
-        g[0] = y2 * C64::new(0.0, w);
+        g[0] = times_j(w, y2);
         g[1] = y2;
         g[2] = y2 * s;
         g[3] = C64::new(0.0, w);
@@ -142,6 +142,13 @@ fn recip(z: C64) -> C64 {
     C64::new(z.re * inv, -z.im * inv)
 }
 
+/// jb·z without the two products by the zero real part of jb that a complex product
+/// takes (they add exact zeros: the result is the same but for the sign of a zero).
+#[inline]
+fn times_j(b: f64, z: C64) -> C64 {
+    C64::new(-(b * z.im), b * z.re)
+}
+
 /// One shunt branch: C_ox in series with R_si ∥ C_si; x = [cox, csi, rsi].
 pub struct ShuntForm;
 
@@ -153,15 +160,15 @@ fn shunt_eval(x: &[f64], f: f64, g: &mut [C64]) -> C64 {
     let w = TAU * f;
     let gsi = 1.0 / x[2];
     let u = C64::new(gsi, w * x[1]);
-    let v = C64::new(0.0, w * x[0]);
-    let s = recip(u + v);
-    let (p, q) = (u * s, v * s);
+    // v = jωC_ox, purely imaginary
+    let vi = w * x[0];
+    let s = recip(C64::new(gsi, u.im + vi));
+    let (p, q) = (u * s, times_j(vi, s));
     let (p2, q2) = (p * p, q * q);
-    let jw = C64::new(0.0, w);
-    g[0] = jw * p2;
-    g[1] = jw * q2;
+    g[0] = times_j(w, p2);
+    g[1] = times_j(w, q2);
     g[2] = q2 * (-gsi * gsi);
-    v * p
+    times_j(vi, p)
 }
 
 impl Form for ShuntForm {
