@@ -133,6 +133,8 @@ pub struct Outcome {
     pub stop: Stop,
     /// evaluations of the problem spent
     pub evals: usize,
+    /// rms residual per point at `p` (NaN when the solver stopped without it)
+    pub rms: f64,
 }
 
 /// Tolerances and budget of [`minimise`].
@@ -217,14 +219,21 @@ pub fn minimise(prob: &dyn Problem, p0: &[f64], opt: &Options) -> Result<Outcome
         return Err("the residual is not finite at the start".into());
     }
     let mut evals = 1;
-    let done = |p, stop, evals| Ok(Outcome { p, stop, evals });
+    let done = |p, stop, evals, rms| {
+        Ok(Outcome {
+            p,
+            stop,
+            evals,
+            rms,
+        })
+    };
     let mut diag = [0.0f64; N_MAX];
     let mut mu = MU_START;
     let mut nu = 2.0;
     let mut trial = Normal::ZERO;
     loop {
         if at.rms() <= opt.floor {
-            return done(p, Stop::Fits, evals);
+            return done(p, Stop::Fits, evals, at.rms());
         }
         let mut s = [0.0; N_MAX];
         let mut cos_max: f64 = 0.0;
@@ -241,7 +250,7 @@ pub fn minimise(prob: &dyn Problem, p0: &[f64], opt: &Options) -> Result<Outcome
             }
         }
         if cos_max <= opt.gtol {
-            return done(p, Stop::SmallGradient, evals);
+            return done(p, Stop::SmallGradient, evals, at.rms());
         }
         let mut g = [0.0; N_MAX];
         for k in 0..n {
@@ -264,7 +273,7 @@ pub fn minimise(prob: &dyn Problem, p0: &[f64], opt: &Options) -> Result<Outcome
         if let Some(h) = damped(DECREMENT_DAMPING) {
             let gain: f64 = (0..n).map(|k| -0.5 * h[k] * g[k]).sum();
             if gain <= opt.ftol * at.cost {
-                return done(p, Stop::Converged, evals);
+                return done(p, Stop::Converged, evals, at.rms());
             }
         }
         // the damped step, damping raised until the system is positive definite
@@ -275,7 +284,7 @@ pub fn minimise(prob: &dyn Problem, p0: &[f64], opt: &Options) -> Result<Outcome
             mu *= nu;
             nu *= 2.0;
             if !mu.is_finite() {
-                return done(p, Stop::SmallStep, evals);
+                return done(p, Stop::SmallStep, evals, at.rms());
             }
         };
         // no parameter moves by more than STEP_MAX in one iteration
@@ -297,10 +306,10 @@ pub fn minimise(prob: &dyn Problem, p0: &[f64], opt: &Options) -> Result<Outcome
             pred -= t * h[k] * (g[k] + 0.5 * t * ah);
         }
         if step2.sqrt() <= opt.xtol * (p2.sqrt() + opt.xtol) {
-            return done(p, Stop::SmallStep, evals);
+            return done(p, Stop::SmallStep, evals, at.rms());
         }
         if evals >= opt.max_evals {
-            return done(p, Stop::Budget, evals);
+            return done(p, Stop::Budget, evals, at.rms());
         }
         evals += 1;
         let ok = prob.eval(&p_new[..n], cheap, &mut trial) && trial.cost.is_finite();
@@ -313,12 +322,13 @@ pub fn minimise(prob: &dyn Problem, p0: &[f64], opt: &Options) -> Result<Outcome
                 at = trial;
             } else {
                 if evals >= opt.max_evals || !prob.eval(&p[..n], true, &mut at) {
-                    return done(p, Stop::Budget, evals);
+                    // F at p is not known here
+                    return done(p, Stop::Budget, evals, f64::NAN);
                 }
                 evals += 1;
             }
             if actual <= opt.ftol * old && pred <= opt.ftol * old {
-                return done(p, Stop::Converged, evals);
+                return done(p, Stop::Converged, evals, at.rms());
             }
             mu *= (1.0 - (2.0 * rho - 1.0).powi(3)).max(1.0 / 3.0);
             nu = 2.0;
@@ -483,6 +493,16 @@ impl Solver for Dense {
         data: &[C64],
         x0: &[f64],
     ) -> Result<Vec<f64>, String> {
+        self.solve_rms(form, f, data, x0).map(|(x, _)| x)
+    }
+
+    fn solve_rms(
+        &self,
+        form: &dyn Form,
+        f: &[f64],
+        data: &[C64],
+        x0: &[f64],
+    ) -> Result<(Vec<f64>, Option<f64>), String> {
         if x0.len() != form.n_params() || x0.iter().any(|&v| !(v.is_finite() && v > 0.0)) {
             return Err("no usable starting values".into());
         }
@@ -497,7 +517,8 @@ impl Solver for Dense {
             scale: x0,
         };
         let out = minimise(&prob, &vec![0.0; x0.len()], &self.options)?;
-        Ok(prob.x_of(&out.p[..x0.len()])[..x0.len()].to_vec())
+        let x = prob.x_of(&out.p[..x0.len()])[..x0.len()].to_vec();
+        Ok((x, out.rms.is_finite().then_some(out.rms)))
     }
 }
 
@@ -588,7 +609,7 @@ mod tests {
         }
         let exp = exp_problem(0.0);
         let c = Counting(&exp, std::cell::Cell::new(0));
-        let Outcome { p, stop, evals } =
+        let Outcome { p, stop, evals, .. } =
             minimise(&c, &[2.0, -0.7], &Options::default()).expect("defined");
         assert_eq!((stop, evals, c.1.get()), (Stop::Fits, 1, 1));
         assert_eq!((p[0], p[1]), (2.0, -0.7));

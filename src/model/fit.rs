@@ -95,6 +95,18 @@ pub trait Solver {
         data: &[C64],
         x0: &[f64],
     ) -> Result<Vec<f64>, String>;
+
+    /// [`Solver::solve`], with the rms relative residual at the solution when the
+    /// solver knows it already (None: the caller computes it if it needs it).
+    fn solve_rms(
+        &self,
+        form: &dyn Form,
+        f: &[f64],
+        data: &[C64],
+        x0: &[f64],
+    ) -> Result<(Vec<f64>, Option<f64>), String> {
+        self.solve(form, f, data, x0).map(|x| (x, None))
+    }
 }
 
 /// Log-space bound about the start (a factor e¹² ≈ 1.6e5 either way): an element the
@@ -115,7 +127,7 @@ impl Form for SeriesForm {
         let s = (f / F_REF).sqrt();
         let yc = recip(C64::new(x[1] + x[2] * s, w * x[0]));
         let y2 = -yc * yc; // ∂(1/Z)/∂Z
-        g[0] = y2 * C64::new(0.0, w);
+        g[0] = times_j(w, y2);
         g[1] = y2;
         g[2] = y2 * s;
         g[3] = C64::new(0.0, w);
@@ -130,6 +142,13 @@ fn recip(z: C64) -> C64 {
     C64::new(z.re * inv, -z.im * inv)
 }
 
+/// jb·z without the two products by the zero real part of jb that a complex product
+/// takes (they add exact zeros: the result is the same but for the sign of a zero).
+#[inline]
+fn times_j(b: f64, z: C64) -> C64 {
+    C64::new(-(b * z.im), b * z.re)
+}
+
 /// One shunt branch: C_ox in series with R_si ∥ C_si; x = [cox, csi, rsi].
 pub struct ShuntForm;
 
@@ -141,15 +160,15 @@ fn shunt_eval(x: &[f64], f: f64, g: &mut [C64]) -> C64 {
     let w = TAU * f;
     let gsi = 1.0 / x[2];
     let u = C64::new(gsi, w * x[1]);
-    let v = C64::new(0.0, w * x[0]);
-    let s = recip(u + v);
-    let (p, q) = (u * s, v * s);
+    // v = jωC_ox, purely imaginary
+    let vi = w * x[0];
+    let s = recip(C64::new(gsi, u.im + vi));
+    let (p, q) = (u * s, times_j(vi, s));
     let (p2, q2) = (p * p, q * q);
-    let jw = C64::new(0.0, w);
-    g[0] = jw * p2;
-    g[1] = jw * q2;
+    g[0] = times_j(w, p2);
+    g[1] = times_j(w, q2);
     g[2] = q2 * (-gsi * gsi);
-    v * p
+    times_j(vi, p)
 }
 
 impl Form for ShuntForm {
@@ -367,6 +386,7 @@ fn fit_shunt(solver: &dyn Solver, f: &[f64], ysh: &[C64], ys: &[C64]) -> [f64; 3
         return [0.0, 0.0, 0.0];
     }
     let x0 = shunt_start(f, ysh);
+    let w_max = TAU * f[f.len() - 1];
     let mut best: Option<([f64; 3], f64)> = None;
     let consider = |x: Vec<f64>, best: &mut Option<([f64; 3], f64)>| {
         let x = [x[0], x[1], x[2]];
@@ -375,8 +395,11 @@ fn fit_shunt(solver: &dyn Solver, f: &[f64], ysh: &[C64], ys: &[C64]) -> [f64; 3
             *best = Some((x, e));
         }
     };
-    if let Ok(x) = solver.solve(&ShuntForm, f, ysh, &x0) {
-        consider(x, &mut best);
+    match solver.solve_rms(&ShuntForm, f, ysh, &x0) {
+        // good enough to be the only candidate: its error needs no second pass
+        Ok((x, Some(e))) if e <= RETRY_ABOVE => return tidy_shunt([x[0], x[1], x[2]], w_max),
+        Ok((x, _)) => consider(x, &mut best),
+        Err(_) => {}
     }
     // second start for substrates at either resistivity extreme, only when the first
     // did not fit
@@ -388,7 +411,7 @@ fn fit_shunt(solver: &dyn Solver, f: &[f64], ysh: &[C64], ys: &[C64]) -> [f64; 3
             }
         }
     }
-    tidy_shunt(best.map(|(x, _)| x).unwrap_or(x0), TAU * f[f.len() - 1])
+    tidy_shunt(best.map(|(x, _)| x).unwrap_or(x0), w_max)
 }
 
 /// Points of the fitted band: f > 0 and below `f_hi`.
@@ -741,7 +764,12 @@ fn fit_one_port(
     for rsi in [sh[2], 0.1 * r0, 10.0 * r0] {
         let mut x0 = x0;
         x0[5] = rsi;
-        if let Ok(x) = solver.solve(&OnePortForm, f, yin, &x0) {
+        if let Ok((x, known)) = solver.solve_rms(&OnePortForm, f, yin, &x0) {
+            // the first good enough start is taken at once: its error needs no pass
+            if let Some(e) = known.filter(|&e| best.is_none() && e <= RETRY_ABOVE) {
+                best = Some((x, e));
+                break;
+            }
             let mut g = [C64::new(0.0, 0.0); 6];
             let e = rms_rel(|fi| OnePortForm.eval(&x, fi, &mut g), f, yin);
             if e.is_finite() && best.as_ref().is_none_or(|(_, b)| e < *b) {

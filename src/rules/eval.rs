@@ -190,22 +190,28 @@ impl Ev<'_, '_> {
 
     fn curve(&self, name: &str, f: f64) -> R {
         let figs = self.ctx.figures;
-        let dims = figures::info(name).map(|i| Dims::of(i.dim));
-        if name == MECHANISM_CURVE {
+        // the catalogue entry and the curve looked up once each (this runs per point)
+        let info = figures::info(name);
+        let values = if name == MECHANISM_CURVE {
             if !figs.curves.contains_key("substrate_factor") {
                 return Err(format!("`mechanism`: {}", self.loss_reason()));
             }
-        } else if let Some(info) = figures::info(name) {
-            if !info.kinds.contains(&figs.kind) {
-                return Err(format!(
-                    "`{name}` is not a figure of {} parts",
-                    figs.kind.as_str()
-                ));
+            None
+        } else {
+            if let Some(info) = info {
+                if !info.kinds.contains(&figs.kind) {
+                    return Err(format!(
+                        "`{name}` is not a figure of {} parts",
+                        figs.kind.as_str()
+                    ));
+                }
             }
-            if !figs.curves.contains_key(name) {
+            let values = figs.curves.get(name);
+            if info.is_some() && values.is_none() {
                 return Err(format!("`{name}`: {}", self.loss_reason()));
             }
-        }
+            values
+        };
         let inside = figs
             .freq
             .first()
@@ -221,9 +227,10 @@ impl Ev<'_, '_> {
         let got = if name == MECHANISM_CURVE {
             figs.mechanism_at(f).map(V::Mech)
         } else {
-            figs.curve_at(name, f)
+            values
+                .and_then(|c| figures::grid::interp(&figs.freq, c, f))
                 .filter(|x| x.is_finite())
-                .zip(dims)
+                .zip(info.map(|i| Dims::of(i.dim)))
                 .map(|(x, d)| V::Num(Iv::exact(x), d))
         };
         got.ok_or_else(|| format!("`{name}` is undefined at {}", eng(f, "Hz")))
