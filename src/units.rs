@@ -335,6 +335,13 @@ pub fn push_fixed(out: &mut String, v: f64, decimals: usize) {
     }
 }
 
+/// 10^k for k = 0 … 22: the powers of ten that are exact as doubles (the reader's
+/// exact conversion path and the plots' rounding use them).
+pub(crate) const EXACT_POW10: [f64; 23] = [
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+];
+
 /// 10^d for the decimals the integer path covers.
 const POW10: [u64; 18] = [
     1,

@@ -116,16 +116,10 @@ pub fn round_sig(v: f64, digits: i32) -> f64 {
     }
 }
 
-/// 10^k for k = 0 … 22: the powers of ten that are exact as doubles.
-const EXACT_POW10: [f64; 23] = [
-    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
-    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
-];
-
 /// `10f64.powi(n)`, from a table for |n| ≤ 22: the same double (powi multiplies exact
 /// powers of ten there and takes the reciprocal for n < 0) without its loop.
 fn pow10i(n: i32) -> f64 {
-    match EXACT_POW10.get(n.unsigned_abs() as usize) {
+    match crate::units::EXACT_POW10.get(n.unsigned_abs() as usize) {
         Some(p) if n >= 0 => *p,
         Some(p) => 1.0 / p,
         None => 10f64.powi(n),

@@ -27,14 +27,10 @@
 use lexical_parse_float::float::extended_to_float;
 use lexical_parse_float::lemire::compute_float;
 
+use crate::units::EXACT_POW10;
+
 /// 10^k for the k digits of a partial word.
 const POW10_INT: [u64; 8] = [1, 10, 100, 1000, 10_000, 100_000, 1_000_000, 10_000_000];
-
-/// The exact powers of ten as doubles (10^22 is the largest).
-const POW10: [f64; 23] = [
-    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
-    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
-];
 
 /// The 0x80 bit set in the bytes of `v` that are not ASCII digits (bytes above the
 /// lowest such one may be marked wrongly, by the borrow; only the lowest is used).
@@ -159,9 +155,9 @@ pub(super) fn parse(s: &[u8]) -> Option<(f64, usize)> {
     let v = if w <= 1 << 53 && (-22..=22).contains(&q) {
         let x = w as f64;
         if q < 0 {
-            x / POW10[q.unsigned_abs() as usize]
+            x / EXACT_POW10[q.unsigned_abs() as usize]
         } else {
-            x * POW10[q as usize]
+            x * EXACT_POW10[q as usize]
         }
     } else {
         let fp = compute_float::<f64>(q, w, false);
