@@ -76,11 +76,59 @@ pub trait Form {
     fn n_params(&self) -> usize;
     /// Y at `f` for parameters `x`; writes ∂Y/∂x_k into `grad` (length `n_params()`).
     fn eval(&self, x: &[f64], f: f64, grad: &mut [C64]) -> C64;
+    /// [`Form::eval`] at [`LANES`] frequencies at once, the same numbers bit for bit,
+    /// laid out lane by lane (real and imaginary parts apart) so that the compiler keeps
+    /// them in vector registers; `grad` has length `n_params()`. Provided: one
+    /// [`Form::eval`] per lane (a form whose fits are rare need not write its own).
+    fn eval_lanes(&self, x: &[f64], f: &[f64; LANES], y: &mut Lanes, grad: &mut [Lanes]) {
+        let mut g = [C64::new(0.0, 0.0); dense::N_MAX];
+        let n = grad.len();
+        for (l, &fl) in f.iter().enumerate() {
+            y.set(l, self.eval(x, fl, &mut g[..n]));
+            for (gk, v) in grad.iter_mut().zip(&g[..n]) {
+                gk.set(l, *v);
+            }
+        }
+    }
     /// The least-squares problem of the dense solver at `x` in one pass over the points
     /// (see [`dense::normal_equations`]). Provided: compiled for each form, so that
-    /// [`Form::eval`] is called directly, and inlined, inside the loop.
+    /// [`Form::eval_lanes`] is called directly, and inlined, inside the loop.
     fn normal_equations(&self, pass: &dense::Pass, out: &mut Normal) -> bool {
         dense::normal_equations(self, pass, out)
+    }
+}
+
+/// Points a [`Form`] evaluates at once in [`Form::eval_lanes`]: four doubles fill one
+/// AVX2 register.
+pub const LANES: usize = 4;
+
+/// [`LANES`] complex numbers, real and imaginary parts apart.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Lanes {
+    /// real parts
+    pub re: [f64; LANES],
+    /// imaginary parts
+    pub im: [f64; LANES],
+}
+
+impl Lanes {
+    /// all zero
+    pub const ZERO: Lanes = Lanes {
+        re: [0.0; LANES],
+        im: [0.0; LANES],
+    };
+
+    /// lane `l` as a complex number
+    #[inline]
+    pub fn get(&self, l: usize) -> C64 {
+        C64::new(self.re[l], self.im[l])
+    }
+
+    /// set lane `l`
+    #[inline]
+    pub fn set(&mut self, l: usize, z: C64) {
+        self.re[l] = z.re;
+        self.im[l] = z.im;
     }
 }
 
@@ -133,6 +181,31 @@ impl Form for SeriesForm {
         g[3] = C64::new(0.0, w);
         yc + C64::new(0.0, w * x[3])
     }
+    // inlined into the point loop, where its lanes stay in registers; one index
+    // over the lanes of every array reads best
+    #[inline(always)]
+    #[allow(clippy::needless_range_loop)]
+    fn eval_lanes(&self, x: &[f64], f: &[f64; LANES], y: &mut Lanes, g: &mut [Lanes]) {
+        // `eval` written out in real arithmetic, operation for operation
+        let [g0, g1, g2, g3] = g else {
+            unreachable!("the series form has four parameters")
+        };
+        let (ls, rdc, rac, cs) = (x[0], x[1], x[2], x[3]);
+        for l in 0..LANES {
+            let w = TAU * f[l];
+            let s = (f[l] / F_REF).sqrt();
+            let (zr, zi) = (rdc + rac * s, w * ls);
+            let inv = 1.0 / (zr * zr + zi * zi);
+            let (ycr, yci) = (zr * inv, -zi * inv);
+            // −yc·yc, as num-complex multiplies (−yc)·yc
+            let (y2r, y2i) = (-ycr * ycr - (-yci) * yci, -ycr * yci + (-yci) * ycr);
+            (g0.re[l], g0.im[l]) = (-(w * y2i), w * y2r);
+            (g1.re[l], g1.im[l]) = (y2r, y2i);
+            (g2.re[l], g2.im[l]) = (y2r * s, y2i * s);
+            (g3.re[l], g3.im[l]) = (0.0, w);
+            (y.re[l], y.im[l]) = (ycr + 0.0, yci + w * cs);
+        }
+    }
 }
 
 /// 1/z with one real division (std's complex division takes two).
@@ -178,6 +251,35 @@ impl Form for ShuntForm {
     #[inline]
     fn eval(&self, x: &[f64], f: f64, g: &mut [C64]) -> C64 {
         shunt_eval(x, f, g)
+    }
+    // inlined into the point loop, where its lanes stay in registers; one index
+    // over the lanes of every array reads best
+    #[inline(always)]
+    #[allow(clippy::needless_range_loop)]
+    fn eval_lanes(&self, x: &[f64], f: &[f64; LANES], y: &mut Lanes, g: &mut [Lanes]) {
+        // `shunt_eval` written out in real arithmetic, operation for operation
+        let [g0, g1, g2] = g else {
+            unreachable!("the shunt form has three parameters")
+        };
+        let gsi = 1.0 / x[2];
+        for l in 0..LANES {
+            let w = TAU * f[l];
+            let ui = w * x[1];
+            let vi = w * x[0];
+            let (ar, ai) = (gsi, ui + vi);
+            let inv = 1.0 / (ar * ar + ai * ai);
+            let (sr, si) = (ar * inv, -ai * inv);
+            // p = u·s, q = jv·s
+            let (pr, pi) = (gsi * sr - ui * si, gsi * si + ui * sr);
+            let (qr, qi) = (-(vi * si), vi * sr);
+            let (p2r, p2i) = (pr * pr - pi * pi, pr * pi + pi * pr);
+            let (q2r, q2i) = (qr * qr - qi * qi, qr * qi + qi * qr);
+            (g0.re[l], g0.im[l]) = (-(w * p2i), w * p2r);
+            (g1.re[l], g1.im[l]) = (-(w * q2i), w * q2r);
+            let k = -gsi * gsi;
+            (g2.re[l], g2.im[l]) = (q2r * k, q2i * k);
+            (y.re[l], y.im[l]) = (-(vi * pi), vi * pr);
+        }
     }
 }
 
@@ -826,6 +928,36 @@ mod tests {
                 "k {k}: {d} vs {}",
                 g[k]
             );
+        }
+    }
+
+    #[test]
+    fn lanes_give_the_numbers_of_eval_bit_for_bit() {
+        // the vector layout of each form against its one-point form (the fast path
+        // against the straightforward one); the one-port form takes the provided one
+        let xs = [2e-9, 3.0, 1.0, 150e-15];
+        let xsh = [150e-15, 40e-15, 500.0];
+        let x1 = [2e-9, 3.0, 1.0, 150e-15, 40e-15, 500.0];
+        let forms: [(&dyn Form, &[f64]); 3] =
+            [(&SeriesForm, &xs), (&ShuntForm, &xsh), (&OnePortForm, &x1)];
+        for (form, x) in forms {
+            let n = form.n_params();
+            for f in [[1e8, 3.7e9, 2.2e10, 6.1e10], [0.0, 1.0, 1e12, 5e9]] {
+                let mut y = Lanes::ZERO;
+                let mut g = vec![Lanes::ZERO; n];
+                form.eval_lanes(x, &f, &mut y, &mut g);
+                for (l, &fl) in f.iter().enumerate() {
+                    let mut g1 = vec![C64::new(0.0, 0.0); n];
+                    let y1 = form.eval(x, fl, &mut g1);
+                    let same = |a: C64, b: C64| {
+                        a.re.to_bits() == b.re.to_bits() && a.im.to_bits() == b.im.to_bits()
+                    };
+                    assert!(same(y.get(l), y1), "n {n} f {fl}: {} vs {y1}", y.get(l));
+                    for k in 0..n {
+                        assert!(same(g[k].get(l), g1[k]), "n {n} f {fl} k {k}");
+                    }
+                }
+            }
         }
     }
 
